@@ -13,6 +13,9 @@
 #define SE_PRINTF(a, b)
 #endif
 
+/* pi, since C11 does not define M_PI. */
+#define SE_PI 3.14159265358979323846
+
 /* Set code and a printf-style message in err (err may be NULL); returns code so
  * callers can write `return se_fail(err, SE_ERR_ARG, "...", ...);`. */
 se_status se_fail(se_error *err, se_status code, const char *fmt, ...) SE_PRINTF(3, 4);

@@ -1,0 +1,113 @@
+/* strandecho: the locator. From a response trace and a reference pulse to located, classified
+ * reflections with distances, uncertainties, polarities and reflection-coefficient estimates. */
+#ifndef SE_LOCATE_H
+#define SE_LOCATE_H
+
+#include <stddef.h>
+
+#include "strandecho/error.h"
+#include "strandecho/wave.h"
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+struct se_distmap;
+
+/* Where the reference pulse came from (for the report). */
+typedef enum se_reference_kind {
+    SE_REF_CHANNEL,   /* a channel of the same recording (the injected pulse) */
+    SE_REF_FILE,      /* a separate recording */
+    SE_REF_SYNTHETIC, /* a synthetic shape (pulse.h spec) */
+    SE_REF_SELF       /* the direct arrival found in the response itself */
+} se_reference_kind;
+
+typedef struct se_locate_config {
+    se_quantity quantity;       /* what the response channel measures */
+    double speed_m_s;           /* wave speed of a uniform line (ignored when map is given) */
+    double speed_uncertainty;   /* one standard uncertainty of the speed, as a fraction (0.02 = 2 %) */
+    const struct se_distmap *map; /* optional delay-to-distance map of a described line (borrowed) */
+    double false_alarms;        /* expected false detections per record (default 0.01) */
+    size_t max_events;          /* 0 = 64 */
+    double source_reflection;   /* source-end coefficient, observed convention (0 = continuing line);
+                                   echoes seen at the sensor are (1 + r_s) times the arriving wave */
+    double confidence;          /* coverage of the reported intervals (default 0.95) */
+    double low_snr_db;          /* events below this energy SNR are marked low confidence (default 20) */
+    /* Reference: exactly one of these. reference[size: reference_length] is copied. With
+     * reference_offset the reference is known to start at that sample of the response's time base
+     * (a channel of the same recording); SIZE_MAX = unknown (search the record). */
+    const double *reference;
+    size_t reference_length;
+    size_t reference_offset;
+    se_reference_kind reference_kind;
+} se_locate_config;
+
+/* Defaults: velocity, speed 0 (must be set), no speed uncertainty, 0.01 false alarms per record,
+ * 95 % intervals, 20 dB low-confidence limit, self reference. */
+void se_locate_config_init(se_locate_config *cfg);
+
+typedef struct se_event {
+    double delay_s;                /* round-trip delay after the direct arrival, s */
+    double delay_uncertainty_s;    /* one standard uncertainty of the delay, s */
+    double distance_m;             /* from the sensor, m */
+    double distance_uncertainty_m; /* half-width of the cfg.confidence interval (timing + speed), m */
+    int polarity;                  /* +1 upright, -1 inverted, in the recorded quantity */
+    int impedance_increase;        /* 1: impedance increase (fixed-like / open-like), 0: decrease */
+    double reflection;             /* signed coefficient estimate in the recorded quantity's convention,
+                                      relative to the outgoing pulse, corrected for the source end */
+    double reflection_uncertainty; /* one standard uncertainty of reflection */
+    double snr_db;                 /* energy SNR of the echo, 20 log10(|A| / sigma), dB */
+    double lag_samples;            /* refined lag in the correlation, samples after the direct arrival */
+    int low_confidence;            /* below cfg.low_snr_db: the timing may jump to a wrong peak */
+    int multiple;                  /* 1 when explained as a multiple of earlier events */
+    int multiple_of[2];            /* indices of the primaries (or -1) when multiple */
+} se_event;
+
+typedef struct se_locate_result {
+    se_event *events;        /* [size: n_events], sorted by delay; owned, freed by se_locate_result_free */
+    size_t n_events;
+    double rate_hz;          /* sample rate of the trace */
+    double t0_s;             /* time of the direct arrival in the record, s */
+    double direct_amplitude; /* correlation amplitude of the direct arrival (response units) */
+    double noise_level;      /* robust noise of the matched-filter output, reflection units */
+    double threshold;        /* detection threshold, reflection units */
+    double threshold_sigma;  /* threshold as a multiple of noise_level (Rice, cfg.false_alarms) */
+    double dead_zone_s;      /* round-trip time after the direct arrival searched for nothing */
+    double dead_zone_m;      /* the same as a distance from the sensor */
+    double resolution_s;     /* main-lobe half width of the pulse autocorrelation, s */
+    double resolution_m;     /* the same as a distance (two echoes closer may merge) */
+    double rms_bandwidth_hz; /* RMS bandwidth of the reference, Hz (beta / 2 pi * rate) */
+    double record_range_m;   /* farthest distance the record reaches */
+    size_t reference_length; /* samples of the reference used */
+    double speed_m_s;        /* speed at the sensor (uniform line: the speed used) */
+    int electrical;          /* 1 for voltage/current (class words open-like/short-like) */
+    se_quantity quantity;    /* quantity the events are classified in */
+} se_locate_result;
+
+/* Locate reflections in response[size: n] sampled at rate_hz. Fills res (caller frees with
+ * se_locate_result_free even on failure: it is zeroed first). */
+se_status se_locate(const double *response, size_t n, double rate_hz, const se_locate_config *cfg,
+                    se_locate_result *res, se_error *err);
+void se_locate_result_free(se_locate_result *res);
+
+/* Class word of an event: "fixed-like", "free-like", "open-like" or "short-like". */
+const char *se_event_class(const se_locate_result *res, const se_event *ev);
+/* Polarity and impedance words: "upright"/"inverted", "increase"/"decrease". */
+const char *se_event_polarity(const se_event *ev);
+const char *se_event_impedance(const se_event *ev);
+
+/* Bring an acceleration or displacement trace to velocity in place (integrate with the pre-trigger
+ * mean removed and a linear drift fitted out, or differentiate by central differences). Any other
+ * quantity is left unchanged. pre_trigger: samples before the pulse used for the offset (0 = 1 %). */
+se_status se_to_velocity(double *x, size_t n, double rate_hz, se_quantity q, size_t pre_trigger,
+                         se_error *err);
+
+/* Find the support of a pulse in a channel: first and one-past-last sample where it stands above
+ * max(3 noise sigma, 1e-3 of its peak), widened by a small margin. */
+se_status se_pulse_support(const double *x, size_t n, size_t *begin, size_t *end, se_error *err);
+
+#ifdef __cplusplus
+}
+#endif
+
+#endif /* SE_LOCATE_H */

@@ -1,0 +1,384 @@
+/* strandecho CLI: `strandecho locate`, a thin layer over se_locate. */
+#include <math.h>
+#include <stdint.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "cli.h"
+#include "commands.h"
+#include "strandecho/caution.h"
+#include "strandecho/digest.h"
+#include "strandecho/jsonout.h"
+#include "strandecho/locate.h"
+#include "strandecho/output.h"
+#include "strandecho/pulse.h"
+#include "strandecho/recording.h"
+#include "strandecho/units.h"
+
+static const char se_locate_usage[] =
+    "usage: strandecho locate RECORDING [options]\n"
+    "\n"
+    "Find, locate and classify the reflections in a recording of an injected pulse.\n"
+    "\n"
+    "Recording and reference:\n"
+    "  --channel N              response channel, 1-based (default 1)\n"
+    "  --pulse-channel N        the injected pulse is recorded on channel N\n"
+    "  --pulse FILE|SPEC        the pulse from a separate recording, or a shape:\n"
+    "                           hann:4ms halfsine:2ms gauss:3ms triangle:2ms ricker:200Hz\n"
+    "                           burst:5@2kHz chirp:100Hz-2kHz:50ms\n"
+    "                           (none: the direct arrival in the response is the reference)\n"
+    "  --quantity Q             what the sensor measures: displacement velocity acceleration\n"
+    "                           force strain voltage current (default velocity; voltage with\n"
+    "                           --velocity-factor)\n"
+    "Wave speed (one way):\n"
+    "  --speed V                m/s (or km/s, ft/s, m/us, ft/us)\n"
+    "  --velocity-factor F      times the speed of light (electrical lines)\n"
+    "  --tension T --mass-per-length MU        transverse waves, sqrt(T/mu)\n"
+    "  --axial-stiffness EA --mass-per-length MU  longitudinal waves, sqrt(EA/mu)\n"
+    "  --speed-uncertainty PCT  one standard uncertainty of the speed, percent\n"
+    "Detection:\n"
+    "  --false-alarms N         expected false detections per record (default 0.01)\n"
+    "  --source-end TERM        continuing (default), free, fixed, open, short, matched or a\n"
+    "                           coefficient: corrects echo amplitudes seen at the sensor\n"
+    "  --confidence P           coverage of the distance intervals (default 0.95)\n"
+    "  --max-events N           at most N events (default 64)\n"
+    "Output:\n"
+    "  --json PATH              write the result as JSON (- for standard output)\n"
+    "  --units m|ft             distances in the table (JSON stays SI)\n"
+    "  --quiet, --verbose\n";
+
+static void se_print_table(const se_locate_result *res, const se_recording *rec, unsigned ch,
+                           const char *refdesc, const se_speed *sp, double fa, double conf,
+                           int feet, int verbose);
+
+static int se_load_reference(const char *pulse, unsigned long pulse_channel, const se_recording *rec,
+                             se_locate_config *cfg, double **owned, char *desc, size_t dsize,
+                             char *sha, int *have_sha)
+{
+    se_error err;
+    se_error_clear(&err);
+    *have_sha = 0;
+    if (pulse_channel > 0) {
+        const double *p;
+        size_t b, e;
+        if (pulse_channel > rec->channels)
+            return se_cli_fail(SE_EXIT_USAGE, "--pulse-channel %lu: %s has %u channel%s",
+                               pulse_channel, rec->path, rec->channels, rec->channels == 1 ? "" : "s");
+        p = se_recording_channel(rec, (unsigned)(pulse_channel - 1));
+        if (se_pulse_support(p, rec->frames, &b, &e, &err) != SE_OK)
+            return se_cli_fail(SE_EXIT_DATA, "%s channel %lu: %s", rec->path, pulse_channel,
+                               err.message);
+        *owned = malloc((e - b) * sizeof **owned);
+        if (*owned == NULL)
+            return se_cli_fail(SE_EXIT_MEMORY, "out of memory for the reference pulse");
+        memcpy(*owned, p + b, (e - b) * sizeof **owned);
+        cfg->reference = *owned;
+        cfg->reference_length = e - b;
+        cfg->reference_offset = b;
+        cfg->reference_kind = SE_REF_CHANNEL;
+        snprintf(desc, dsize, "channel %lu", pulse_channel);
+        return SE_EXIT_OK;
+    }
+    if (pulse == NULL) {
+        cfg->reference_kind = SE_REF_SELF;
+        snprintf(desc, dsize, "self (direct arrival in the response)");
+        return SE_EXIT_OK;
+    }
+    if (se_pulse_is_spec(pulse)) {
+        se_pulse_shape shape;
+        size_t n;
+        if (se_pulse_parse(pulse, &shape, &err) != SE_OK)
+            return se_cli_fail(SE_EXIT_USAGE, "--pulse %s: %s", pulse, err.message);
+        if (se_pulse_render(&shape, rec->rate, owned, &n, &err) != SE_OK)
+            return se_cli_fail(SE_EXIT_USAGE, "--pulse %s: %s", pulse, err.message);
+        cfg->reference = *owned;
+        cfg->reference_length = n;
+        cfg->reference_offset = SIZE_MAX;
+        cfg->reference_kind = SE_REF_SYNTHETIC;
+        se_pulse_describe(&shape, desc, dsize);
+        return SE_EXIT_OK;
+    }
+    {
+        se_recording *pr = se_recording_read(pulse, NULL, &err);
+        size_t b, e;
+        if (pr == NULL)
+            return se_cli_fail_err(&err, 0);
+        if (fabs(pr->rate - rec->rate) > 1e-9 * rec->rate) {
+            int code = se_cli_fail(SE_EXIT_DATA,
+                                   "%s: sample rate %.10g Hz differs from the recording's %.10g Hz",
+                                   pulse, pr->rate, rec->rate);
+            se_recording_free(pr);
+            return code;
+        }
+        if (se_pulse_support(pr->data, pr->frames, &b, &e, &err) != SE_OK) {
+            int code = se_cli_fail(SE_EXIT_DATA, "%s: %s", pulse, err.message);
+            se_recording_free(pr);
+            return code;
+        }
+        *owned = malloc((e - b) * sizeof **owned);
+        if (*owned == NULL) {
+            se_recording_free(pr);
+            return se_cli_fail(SE_EXIT_MEMORY, "out of memory for the reference pulse");
+        }
+        memcpy(*owned, pr->data + b, (e - b) * sizeof **owned);
+        se_recording_free(pr);
+        if (se_sha256_file(pulse, sha, &err) != SE_OK)
+            return se_cli_fail_err(&err, 0);
+        *have_sha = 1;
+        cfg->reference = *owned;
+        cfg->reference_length = e - b;
+        cfg->reference_offset = SIZE_MAX;
+        cfg->reference_kind = SE_REF_FILE;
+        snprintf(desc, dsize, "file %s", pulse);
+        return SE_EXIT_OK;
+    }
+}
+
+static int se_write_text(const char *path, const char *text)
+{
+    se_error err;
+    se_output *out;
+    se_error_clear(&err);
+    out = se_output_open(path, &err);
+    if (out == NULL)
+        return se_cli_fail_err(&err, 1);
+    if (fputs(text, se_output_stream(out)) == EOF) {
+        se_output_abort(out);
+        return se_cli_fail(SE_EXIT_OUTPUT, "%s: write failed", path);
+    }
+    if (se_output_commit(out, &err) != SE_OK)
+        return se_cli_fail_err(&err, 1);
+    return SE_EXIT_OK;
+}
+
+int se_cmd_locate(int argc, char **argv)
+{
+    se_cli c = {argc, argv, 1, 0, 0};
+    se_speed_opts so;
+    se_speed sp;
+    se_locate_config cfg;
+    se_locate_result res;
+    se_recording *rec = NULL;
+    se_error err;
+    const char *path = NULL, *pulse = NULL, *json = NULL, *quantity = NULL, *v;
+    const char *source_end = NULL, *units = "m";
+    unsigned long channel = 1, pulse_channel = 0, max_events = 64;
+    double fa = 0.01, conf = 0.95;
+    double *refbuf = NULL;
+    char refdesc[160], sha[65], refsha[65], *text = NULL;
+    int have_refsha = 0, rc = SE_EXIT_OK, got;
+
+    memset(&so, 0, sizeof so);
+    memset(&res, 0, sizeof res);
+    se_error_clear(&err);
+    se_locate_config_init(&cfg);
+    while (c.i < argc) {
+        const char *a = argv[c.i];
+        if (strcmp(a, "--help") == 0 || strcmp(a, "-h") == 0) {
+            fputs(se_locate_usage, stdout);
+            return SE_EXIT_OK;
+        }
+        if ((got = se_cli_speed_option(&c, &so)) != 0) {
+            if (got < 0)
+                return SE_EXIT_USAGE;
+            continue;
+        }
+#define SE_TAKE(name, var)                                                                        \
+    if ((got = se_cli_value(&c, name, &(var))) != 0) {                                            \
+        if (got < 0)                                                                              \
+            return SE_EXIT_USAGE;                                                                 \
+        continue;                                                                                 \
+    }
+        SE_TAKE("--pulse", pulse)
+        SE_TAKE("--json", json)
+        SE_TAKE("--quantity", quantity)
+        SE_TAKE("--source-end", source_end)
+        SE_TAKE("--units", units)
+        if ((got = se_cli_value(&c, "--channel", &v)) != 0) {
+            if (got < 0 || se_cli_uint("--channel", v, 1, 65535, &channel) != 0)
+                return SE_EXIT_USAGE;
+            continue;
+        }
+        if ((got = se_cli_value(&c, "--pulse-channel", &v)) != 0) {
+            if (got < 0 || se_cli_uint("--pulse-channel", v, 1, 65535, &pulse_channel) != 0)
+                return SE_EXIT_USAGE;
+            continue;
+        }
+        if ((got = se_cli_value(&c, "--max-events", &v)) != 0) {
+            if (got < 0 || se_cli_uint("--max-events", v, 1, 10000, &max_events) != 0)
+                return SE_EXIT_USAGE;
+            continue;
+        }
+        if ((got = se_cli_value(&c, "--false-alarms", &v)) != 0) {
+            char *end;
+            if (got < 0)
+                return SE_EXIT_USAGE;
+            fa = strtod(v, &end);
+            if (end == v || *end != '\0' || !(fa > 0.0 && fa <= 1000.0))
+                return se_cli_fail(SE_EXIT_USAGE,
+                                   "--false-alarms: '%s' is not a number in (0, 1000]", v);
+            continue;
+        }
+        if ((got = se_cli_value(&c, "--confidence", &v)) != 0) {
+            char *end;
+            if (got < 0)
+                return SE_EXIT_USAGE;
+            conf = strtod(v, &end);
+            if (end == v || *end != '\0' || !(conf > 0.0 && conf < 1.0))
+                return se_cli_fail(SE_EXIT_USAGE, "--confidence: '%s' is not a number in (0, 1)", v);
+            continue;
+        }
+        if (se_cli_flag(&c, "--quiet")) {
+            c.quiet = 1;
+            continue;
+        }
+        if (se_cli_flag(&c, "--verbose")) {
+            c.verbose = 1;
+            continue;
+        }
+        if (a[0] == '-' && a[1] != '\0')
+            return se_cli_fail(SE_EXIT_USAGE, "locate: unknown option %s (see strandecho locate --help)",
+                               a);
+        if (path != NULL)
+            return se_cli_fail(SE_EXIT_USAGE, "locate: one recording at a time (got %s and %s)", path,
+                               a);
+        path = a;
+        c.i++;
+    }
+#undef SE_TAKE
+    if (path == NULL)
+        return se_cli_fail(SE_EXIT_USAGE, "locate: no recording given (see strandecho locate --help)");
+    if (pulse != NULL && pulse_channel > 0)
+        return se_cli_fail(SE_EXIT_USAGE, "give the reference once: --pulse or --pulse-channel");
+    if (strcmp(units, "m") != 0 && strcmp(units, "ft") != 0)
+        return se_cli_fail(SE_EXIT_USAGE, "--units: '%s' is not m or ft", units);
+    if ((rc = se_cli_speed_resolve(&so, 1, &sp)) != SE_EXIT_OK)
+        return rc;
+    cfg.speed_m_s = sp.speed_m_s;
+    cfg.speed_uncertainty = sp.uncertainty;
+    cfg.false_alarms = fa;
+    cfg.confidence = conf;
+    cfg.max_events = max_events;
+    cfg.quantity = sp.electrical_hint ? SE_Q_VOLTAGE : SE_Q_VELOCITY;
+    if (quantity != NULL && se_quantity_parse(quantity, &cfg.quantity, &err) != SE_OK)
+        return se_cli_fail(SE_EXIT_USAGE, "--quantity: %s", err.message);
+    if (source_end != NULL &&
+        se_termination_parse(source_end, cfg.quantity, &cfg.source_reflection, &err) != SE_OK)
+        return se_cli_fail(SE_EXIT_USAGE, "--source-end: %s", err.message);
+    {
+        const char *inputs[3] = {path, pulse != NULL && !se_pulse_is_spec(pulse) ? pulse : NULL, NULL};
+        if (json != NULL && (rc = se_cli_check_output(json, inputs)) != SE_EXIT_OK)
+            return rc;
+    }
+
+    rec = se_recording_read(path, NULL, &err);
+    if (rec == NULL)
+        return se_cli_fail_err(&err, 0);
+    if (channel > rec->channels) {
+        rc = se_cli_fail(SE_EXIT_USAGE, "--channel %lu: %s has %u channel%s", channel, path,
+                         rec->channels, rec->channels == 1 ? "" : "s");
+        goto done;
+    }
+    if (pulse_channel == channel) {
+        rc = se_cli_fail(SE_EXIT_USAGE, "--pulse-channel %lu is the response channel", pulse_channel);
+        goto done;
+    }
+    rc = se_load_reference(pulse, pulse_channel, rec, &cfg, &refbuf, refdesc, sizeof refdesc, refsha,
+                           &have_refsha);
+    if (rc != SE_EXIT_OK)
+        goto done;
+    if (se_sha256_file(path, sha, &err) != SE_OK) {
+        rc = se_cli_fail_err(&err, 0);
+        goto done;
+    }
+    if (se_locate(se_recording_channel(rec, (unsigned)(channel - 1)), rec->frames, rec->rate, &cfg,
+                  &res, &err) != SE_OK) {
+        rc = se_cli_fail(se_cli_exit_code(err.code, 0), "%s: %s", path, err.message);
+        goto done;
+    }
+    if (json != NULL) {
+        se_run_info info;
+        se_run_info_init(&info);
+        info.input_file = path;
+        info.input_sha256 = sha;
+        info.input_format = rec->format;
+        info.input_frames = rec->frames;
+        info.input_channels = rec->channels;
+        info.channel = (unsigned)channel;
+        info.reference = refdesc;
+        info.reference_sha256 = have_refsha ? refsha : NULL;
+        info.speed_source = sp.source;
+        info.tension_n = sp.tension_n;
+        info.mass_per_length_kg_m = sp.mass_per_length_kg_m;
+        info.axial_stiffness_n = sp.axial_stiffness_n;
+        info.velocity_factor = sp.velocity_factor;
+        info.speed_uncertainty = sp.uncertainty;
+        info.false_alarms = fa;
+        info.confidence = conf;
+        info.source_reflection = cfg.source_reflection;
+        text = se_result_json(&res, &info, &err);
+        if (text == NULL) {
+            rc = se_cli_fail_err(&err, 1);
+            goto done;
+        }
+        if ((rc = se_write_text(json, text)) != SE_EXIT_OK)
+            goto done;
+    }
+    if (!c.quiet && !(json != NULL && strcmp(json, "-") == 0))
+        se_print_table(&res, rec, (unsigned)channel, refdesc, &sp, fa, conf, units[0] == 'f',
+                       c.verbose);
+done:
+    free(text);
+    free(refbuf);
+    se_locate_result_free(&res);
+    se_recording_free(rec);
+    return rc;
+}
+
+static void se_print_table(const se_locate_result *res, const se_recording *rec, unsigned ch,
+                           const char *refdesc, const se_speed *sp, double fa, double conf,
+                           int feet, int verbose)
+{
+    const double k = feet ? 1.0 / 0.3048 : 1.0;
+    const char *u = feet ? "ft" : "m";
+    size_t i;
+    printf("strandecho %s  %s  (%s, %.10g Hz, %u channel%s, %.6g s), response channel %u\n",
+           se_version(), rec->path, rec->format, rec->rate, rec->channels,
+           rec->channels == 1 ? "" : "s", (double)rec->frames / rec->rate, ch);
+    printf("reference: %s, %zu samples (%.4g ms); quantity: %s; %s line\n", refdesc,
+           res->reference_length, 1e3 * (double)res->reference_length / res->rate_hz,
+           se_quantity_name(res->quantity), res->electrical ? "electrical" : "mechanical");
+    printf("\n");
+    printf(" #  distance (%s)  +/- (%s, %.0f %%)  delay (ms)  polarity  impedance  class       "
+           "reflection  SNR (dB)\n",
+           u, u, conf * 100.0);
+    for (i = 0; i < res->n_events; i++) {
+        const se_event *ev = &res->events[i];
+        char note[48] = "";
+        if (ev->low_confidence)
+            snprintf(note, sizeof note, "  low confidence");
+        if (ev->multiple)
+            snprintf(note + strlen(note), sizeof note - strlen(note), "  multiple");
+        printf("%2zu  %13.3f  %14.3f  %10.3f  %-8s  %-9s  %-10s  %+10.3f  %8.1f%s\n", i + 1,
+               ev->distance_m * k, ev->distance_uncertainty_m * k, ev->delay_s * 1e3,
+               se_event_polarity(ev), se_event_impedance(ev), se_event_class(res, ev), ev->reflection,
+               ev->snr_db, note);
+    }
+    if (res->n_events == 0)
+        printf("    no reflection above the threshold\n");
+    printf("\n");
+    printf("speed used: %.6g m/s, %s; speed uncertainty %.3g %% (one standard uncertainty)%s\n",
+           res->speed_m_s, sp->source, sp->uncertainty * 100.0,
+           sp->uncertainty == 0.0 ? ": distance intervals are timing-only" : "");
+    printf("noise level %.3g, threshold %.3g (%.2f sigma for %g false alarm%s per record), in "
+           "reflection units\n",
+           res->noise_level, res->threshold, res->threshold_sigma, fa, fa == 1.0 ? "" : "s");
+    printf("dead zone %.3f %s (%.4g ms), resolution %.3f %s, record reaches %.1f %s\n",
+           res->dead_zone_m * k, u, res->dead_zone_s * 1e3, res->resolution_m * k, u,
+           res->record_range_m * k, u);
+    if (verbose)
+        printf("direct arrival at %.9g s, amplitude %.6g; RMS bandwidth %.6g Hz\n", res->t0_s,
+               res->direct_amplitude, res->rms_bandwidth_hz);
+    printf("%s\n", se_caution_line(res->electrical));
+}

@@ -1,0 +1,8 @@
+/* strandecho CLI: the subcommands, one file each. Each returns a process exit code. */
+#ifndef SE_COMMANDS_H
+#define SE_COMMANDS_H
+
+int se_cmd_locate(int argc, char **argv);
+int se_cmd_simulate(int argc, char **argv);
+
+#endif /* SE_COMMANDS_H */

@@ -1,0 +1,544 @@
+/* strandecho: the locator pipeline. Reference -> matched filter -> time origin -> noise and
+ * threshold -> dead zone -> CLEAN detection with band-limited refinement -> classification and
+ * distances with uncertainties. */
+#include "strandecho/locate.h"
+
+#include <float.h>
+#include <math.h>
+#include <stdint.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include <gsl/gsl_cdf.h>
+
+#include "internal.h"
+#include "strandecho/detect.h"
+#include "strandecho/distmap.h"
+#include "strandecho/xcorr.h"
+
+static double se_robust_sigma(const double *x, size_t n, se_error *err, int *ok);
+static se_status se_find_direct(const double *r, size_t n, const se_locate_config *cfg,
+                                size_t ref_begin, size_t m, size_t *k0, se_error *err);
+static void se_label_multiples(se_event *ev, size_t n, double source_r, double resolution_s);
+
+void se_locate_config_init(se_locate_config *cfg)
+{
+    memset(cfg, 0, sizeof *cfg);
+    cfg->quantity = SE_Q_VELOCITY;
+    cfg->false_alarms = 0.01;
+    cfg->max_events = 64;
+    cfg->confidence = 0.95;
+    cfg->low_snr_db = 20.0;
+    cfg->reference_offset = SIZE_MAX;
+    cfg->reference_kind = SE_REF_SELF;
+}
+
+void se_locate_result_free(se_locate_result *res)
+{
+    if (res == NULL)
+        return;
+    free(res->events);
+    res->events = NULL;
+    res->n_events = 0;
+}
+
+const char *se_event_polarity(const se_event *ev)
+{
+    return ev->polarity >= 0 ? "upright" : "inverted";
+}
+
+const char *se_event_impedance(const se_event *ev)
+{
+    return ev->impedance_increase ? "increase" : "decrease";
+}
+
+const char *se_event_class(const se_locate_result *res, const se_event *ev)
+{
+    return se_class_name(res->quantity, ev->impedance_increase);
+}
+
+/* 1.4826 * MAD of x, on a strided sample of at most 2^18 values (O(n) selection inside
+ * se_noise_mad). */
+static double se_robust_sigma(const double *x, size_t n, se_error *err, int *ok)
+{
+    se_noise nz;
+    *ok = se_noise_mad(x, 0, n, (size_t)1 << 18, &nz, err) == SE_OK;
+    return *ok ? nz.sigma : 0.0;
+}
+
+se_status se_pulse_support(const double *x, size_t n, size_t *begin, size_t *end, se_error *err)
+{
+    double peak = 0.0, sigma, hi, lo;
+    size_t i, first = SIZE_MAX, last, quiet, gap, b, e, pad;
+    int ok;
+
+    if (x == NULL || n < 3)
+        return se_fail(err, SE_ERR_DATA, "pulse search: trace has %zu samples, need at least 3", n);
+    for (i = 0; i < n; i++)
+        if (fabs(x[i]) > peak)
+            peak = fabs(x[i]);
+    if (!(peak > 0.0))
+        return se_fail(err, SE_ERR_DATA, "pulse search: the trace is all zero");
+    sigma = se_robust_sigma(x, n, err, &ok);
+    if (!ok)
+        return err ? err->code : SE_ERR_DATA;
+    hi = fmax(8.0 * sigma, 0.2 * peak);
+    for (i = 0; i < n; i++)
+        if (fabs(x[i]) > hi) {
+            first = i;
+            break;
+        }
+    if (first == SIZE_MAX || hi >= peak)
+        return se_fail(err, SE_ERR_NOTFOUND,
+                       "pulse search: no excursion stands above the noise (peak %.3g, noise %.3g)",
+                       peak, sigma);
+    /* The local peak of this first excursion sets the tail level. */
+    {
+        double local = 0.0;
+        lo = fmax(3.0 * sigma, 1e-3 * hi);
+        for (i = first, quiet = 0; i < n; i++) {
+            size_t len = i - first;
+            gap = 8 + len / 16;
+            if (fabs(x[i]) > local)
+                local = fabs(x[i]);
+            lo = fmax(3.0 * sigma, 1e-3 * local);
+            if (fabs(x[i]) < lo) {
+                if (++quiet >= gap)
+                    break;
+            } else {
+                quiet = 0;
+            }
+        }
+        last = i >= n ? n : i + 1 - quiet;
+    }
+    /* Backwards from the first crossing to where the leading tail falls under lo. */
+    for (b = first, quiet = 0; b > 0; b--) {
+        if (fabs(x[b - 1]) < lo) {
+            if (++quiet >= 8)
+                break;
+        } else {
+            quiet = 0;
+        }
+    }
+    b = b + quiet > first ? first : b + quiet;
+    e = last;
+    pad = 2 + (e - b) / 50;
+    b = b > pad ? b - pad : 0;
+    e = e + pad < n ? e + pad : n;
+    *begin = b;
+    *end = e;
+    return SE_OK;
+}
+
+se_status se_to_velocity(double *x, size_t n, double rate_hz, se_quantity q, size_t pre_trigger,
+                         se_error *err)
+{
+    size_t i;
+    if (q != SE_Q_ACCELERATION && q != SE_Q_DISPLACEMENT)
+        return SE_OK;
+    if (x == NULL || n < 3 || !(rate_hz > 0.0))
+        return se_fail(err, SE_ERR_DATA, "cannot convert a %zu-sample trace to velocity", n);
+    if (q == SE_Q_DISPLACEMENT) {
+        /* central differences; one-sided at the ends */
+        double prev = x[0], cur;
+        double d0 = (x[1] - x[0]) * rate_hz;
+        for (i = 1; i + 1 < n; i++) {
+            cur = x[i];
+            x[i] = (x[i + 1] - prev) * 0.5 * rate_hz;
+            prev = cur;
+        }
+        x[n - 1] = (x[n - 1] - prev) * rate_hz;
+        x[0] = d0;
+        return SE_OK;
+    }
+    /* acceleration: remove the pre-trigger offset, integrate by trapezoids, fit out a line */
+    {
+        double mean = 0.0, acc = 0.0, prev;
+        double sx = 0, sy = 0, sxx = 0, sxy = 0, slope, icpt, den;
+        size_t np = pre_trigger ? pre_trigger : n / 100;
+        if (np < 1)
+            np = 1;
+        if (np > n)
+            np = n;
+        for (i = 0; i < np; i++)
+            mean += x[i];
+        mean /= (double)np;
+        prev = x[0] - mean;
+        x[0] = 0.0;
+        for (i = 1; i < n; i++) {
+            double a = x[i] - mean;
+            acc += 0.5 * (a + prev) / rate_hz;
+            prev = a;
+            x[i] = acc;
+        }
+        for (i = 0; i < n; i++) {
+            double t = (double)i;
+            sx += t;
+            sy += x[i];
+            sxx += t * t;
+            sxy += t * x[i];
+        }
+        den = (double)n * sxx - sx * sx;
+        slope = den != 0.0 ? ((double)n * sxy - sx * sy) / den : 0.0;
+        icpt = (sy - slope * sx) / (double)n;
+        for (i = 0; i < n; i++)
+            x[i] -= icpt + slope * (double)i;
+    }
+    return SE_OK;
+}
+
+/* Integer lag of the direct arrival in r. */
+static se_status se_find_direct(const double *r, size_t n, const se_locate_config *cfg,
+                                size_t ref_begin, size_t m, size_t *k0, se_error *err)
+{
+    size_t lo = 0, hi = n, i, best = SIZE_MAX;
+    double bestv = 0.0, gmax = 0.0;
+
+    if (cfg->reference_kind == SE_REF_SELF) {
+        *k0 = ref_begin;
+        return SE_OK;
+    }
+    if (cfg->reference_offset != SIZE_MAX) {
+        /* a channel of the same recording: the sensor sits at (or near) the injection point */
+        lo = cfg->reference_offset > m ? cfg->reference_offset - m : 0;
+        hi = cfg->reference_offset + 2 * m + 1 < n ? cfg->reference_offset + 2 * m + 1 : n;
+        for (i = lo; i < hi; i++)
+            if (fabs(r[i]) > bestv) {
+                bestv = fabs(r[i]);
+                best = i;
+            }
+    } else {
+        /* no time base: the first lag that reaches half the record's largest correlation, then
+         * its local maximum within one pulse length */
+        for (i = 0; i < n; i++)
+            if (fabs(r[i]) > gmax)
+                gmax = fabs(r[i]);
+        for (i = 0; i < n; i++)
+            if (fabs(r[i]) >= 0.5 * gmax)
+                break;
+        lo = i;
+        hi = lo + m + 1 < n ? lo + m + 1 : n;
+        for (i = lo; i < hi; i++)
+            if (fabs(r[i]) > bestv) {
+                bestv = fabs(r[i]);
+                best = i;
+            }
+    }
+    if (best == SIZE_MAX || !(bestv > 0.0))
+        return se_fail(err, SE_ERR_NOTFOUND,
+                       "the outgoing pulse does not appear in the response (no correlation peak)");
+    *k0 = best;
+    return SE_OK;
+}
+
+se_status se_locate(const double *response, size_t n, double rate_hz, const se_locate_config *cfg,
+                    se_locate_result *res, se_error *err)
+{
+    se_status st = SE_OK;
+    double *x = NULL, *ref = NULL, *r = NULL;
+    se_xcorr *xc = NULL;
+    se_xcorr_work *xw = NULL;
+    se_acf *acf = NULL;
+    se_peak *peaks = NULL;
+    size_t npeaks = 0, m, ref_begin = 0, ref_end = 0, k0 = 0, i, dead, start, end;
+    double lag0, a0, sigma, beta, kthr, thr, z, hw, one_plus_rs, v0;
+    se_noise nz;
+    se_detect_config dc;
+    se_peak direct;
+    se_distmap *own_map = NULL;
+    const se_distmap *map;
+    double beta_crb;
+
+    if (res == NULL)
+        return se_fail(err, SE_ERR_ARG, "locate: no result record");
+    memset(res, 0, sizeof *res);
+    if (response == NULL || cfg == NULL)
+        return se_fail(err, SE_ERR_ARG, "locate: no response or no configuration");
+    if (!(rate_hz > 0.0) || !isfinite(rate_hz))
+        return se_fail(err, SE_ERR_ARG, "locate: sample rate %g Hz is not positive", rate_hz);
+    if (cfg->map == NULL && se_check_speed(cfg->speed_m_s, err) != SE_OK)
+        return err ? err->code : SE_ERR_RANGE;
+    map = cfg->map;
+    if (!(cfg->speed_uncertainty >= 0.0) || cfg->speed_uncertainty >= 1.0)
+        return se_fail(err, SE_ERR_RANGE, "locate: speed uncertainty %g %% is not in [0, 100)",
+                       cfg->speed_uncertainty * 100.0);
+    if (!(cfg->false_alarms > 0.0) || cfg->false_alarms > 1000.0)
+        return se_fail(err, SE_ERR_RANGE, "locate: false-alarm target %g per record is not in (0, 1000]",
+                       cfg->false_alarms);
+    if (!(cfg->confidence > 0.0 && cfg->confidence < 1.0))
+        return se_fail(err, SE_ERR_RANGE, "locate: confidence %g is not in (0, 1)", cfg->confidence);
+    one_plus_rs = 1.0 + cfg->source_reflection;
+    if (!(cfg->source_reflection >= -1.0 && cfg->source_reflection <= 1.0) || fabs(one_plus_rs) < 1e-6)
+        return se_fail(err, SE_ERR_RANGE,
+                       "locate: source-end coefficient %g leaves nothing to measure at the sensor",
+                       cfg->source_reflection);
+    if (cfg->reference_kind != SE_REF_SELF && (cfg->reference == NULL || cfg->reference_length < 3))
+        return se_fail(err, SE_ERR_ARG, "locate: the reference pulse has fewer than 3 samples");
+    if (n < 16)
+        return se_fail(err, SE_ERR_DATA, "locate: the response has only %zu samples", n);
+
+    if (map == NULL) {
+        own_map = se_distmap_create_uniform(cfg->speed_m_s, cfg->speed_uncertainty, INFINITY, err);
+        if (own_map == NULL)
+            return err ? err->code : SE_ERR_NOMEM;
+        map = own_map;
+    }
+    x = se_calloc(n, sizeof *x, "response copy", err);
+    if (x == NULL) {
+        se_distmap_destroy(own_map);
+        return SE_ERR_NOMEM;
+    }
+    memcpy(x, response, n * sizeof *x);
+    st = se_to_velocity(x, n, rate_hz, cfg->quantity, 0, err);
+    if (st != SE_OK)
+        goto done;
+
+    /* Reference pulse. */
+    if (cfg->reference_kind == SE_REF_SELF) {
+        st = se_pulse_support(x, n, &ref_begin, &ref_end, err);
+        if (st != SE_OK) {
+            se_fail(err, st, "self reference: %s", err ? err->message : "no direct arrival");
+            goto done;
+        }
+        m = ref_end - ref_begin;
+        ref = se_calloc(m, sizeof *ref, "reference", err);
+        if (ref == NULL) {
+            st = SE_ERR_NOMEM;
+            goto done;
+        }
+        memcpy(ref, x + ref_begin, m * sizeof *ref);
+    } else {
+        m = cfg->reference_length;
+        ref = se_calloc(m, sizeof *ref, "reference", err);
+        if (ref == NULL) {
+            st = SE_ERR_NOMEM;
+            goto done;
+        }
+        memcpy(ref, cfg->reference, m * sizeof *ref);
+    }
+    if (m >= n) {
+        st = se_fail(err, SE_ERR_DATA,
+                     "the response (%zu samples) is not longer than the reference pulse (%zu samples)",
+                     n, m);
+        goto done;
+    }
+
+    /* Matched filter. */
+    r = se_calloc(n, sizeof *r, "correlation", err);
+    if (r == NULL) {
+        st = SE_ERR_NOMEM;
+        goto done;
+    }
+    xc = se_xcorr_create(ref, m, 0, err);
+    if (xc == NULL) {
+        st = err ? err->code : SE_ERR_NOMEM;
+        goto done;
+    }
+    xw = se_xcorr_work_create(xc, err);
+    if (xw == NULL) {
+        st = err ? err->code : SE_ERR_NOMEM;
+        goto done;
+    }
+    st = se_xcorr_run(xc, xw, x, n, r, err);
+    if (st != SE_OK)
+        goto done;
+    acf = se_acf_create(ref, m, err);
+    if (acf == NULL) {
+        st = err ? err->code : SE_ERR_NOMEM;
+        goto done;
+    }
+
+    /* Time origin: the direct arrival as it appears in the response. */
+    st = se_find_direct(r, n, cfg, ref_begin, m, &k0, err);
+    if (st != SE_OK)
+        goto done;
+    st = se_refine_peak(r, n, k0, 0, &lag0, &a0, err);
+    if (st != SE_OK)
+        goto done;
+    if (!(fabs(a0) > 0.0)) {
+        st = se_fail(err, SE_ERR_NOTFOUND, "the outgoing pulse does not appear in the response");
+        goto done;
+    }
+
+    /* Noise of the matched-filter output beyond the direct arrival, and the Rice threshold. */
+    start = k0 + m < n ? k0 + m : n;
+    end = n > m ? n - m + 1 : 0;
+    if (end <= start + 16) {
+        st = se_fail(err, SE_ERR_DATA,
+                     "the record ends %.6g s after the direct arrival: too short to search for echoes",
+                     (double)(n - k0) / rate_hz);
+        goto done;
+    }
+    st = se_noise_mad(r, start, end, (size_t)1 << 20, &nz, err);
+    if (st != SE_OK)
+        goto done;
+    sigma = nz.sigma;
+    /* Rice needs the bandwidth of the noise as it is in r (coloured noise included); the delay
+     * bound needs the pulse's own RMS bandwidth. */
+    beta_crb = se_acf_rms_bandwidth(acf);
+    beta = (isfinite(nz.beta) && nz.beta > 0.0) ? nz.beta : beta_crb;
+    if (!(sigma > 0.0)) /* noise-free record: keep a floor at double rounding of the peak */
+        sigma = fabs(a0) * 1e-12;
+    kthr = se_rice_k((double)(end - start), beta, cfg->false_alarms);
+    thr = kthr * sigma;
+
+    /* Dead zone: the outgoing pulse itself, and as far as its sidelobes stand above half the
+     * threshold. */
+    {
+        double level = 0.5 * thr / fabs(a0);
+        size_t ext = level < 1.0 ? se_acf_extent(acf, level) : 0;
+        dead = ext > m ? ext : m;
+    }
+    start = k0 + dead < n ? k0 + dead : n;
+    if (start >= end) {
+        st = se_fail(err, SE_ERR_DATA, "the record ends inside the dead zone");
+        goto done;
+    }
+
+    /* CLEAN detection, the direct arrival's sidelobes subtracted first. */
+    direct.lag = lag0;
+    direct.amplitude = a0;
+    direct.index = k0;
+    memset(&dc, 0, sizeof dc);
+    dc.start = start;
+    dc.end = end;
+    dc.threshold = thr;
+    dc.max_peaks = cfg->max_events ? cfg->max_events : 64;
+    dc.acf = acf;
+    dc.known = &direct;
+    dc.n_known = 1;
+    st = se_detect(r, n, &dc, &peaks, &npeaks, err);
+    if (st != SE_OK)
+        goto done;
+
+    /* Events. */
+    hw = se_acf_mainlobe_half_width(acf);
+    z = gsl_cdf_ugaussian_Pinv(0.5 + 0.5 * cfg->confidence);
+    st = se_distmap_speed(map, 0.0, &v0, err);
+    if (st != SE_OK)
+        goto done;
+    if (npeaks > 0) {
+        res->events = se_calloc(npeaks, sizeof *res->events, "events", err);
+        if (res->events == NULL) {
+            st = SE_ERR_NOMEM;
+            goto done;
+        }
+    }
+    for (i = 0; i < npeaks; i++) {
+        se_event *ev = &res->events[i];
+        double lagrel = peaks[i].lag - lag0;
+        double snr = fabs(peaks[i].amplitude) / sigma;
+        double sl = 1.0 / (snr * beta_crb), sl0 = sigma / (fabs(a0) * beta_crb);
+        double sd_t, sd_v, refl_d, vloc;
+        ev->lag_samples = lagrel;
+        ev->delay_s = lagrel / rate_hz;
+        ev->reflection = peaks[i].amplitude / a0 / one_plus_rs;
+        ev->reflection_uncertainty = sigma / fabs(a0) / fabs(one_plus_rs);
+        ev->polarity = ev->reflection >= 0.0 ? 1 : -1;
+        refl_d = ev->reflection * (double)se_quantity_sign(cfg->quantity);
+        ev->impedance_increase = refl_d < 0.0;
+        ev->snr_db = 20.0 * log10(snr);
+        ev->low_confidence = ev->snr_db < cfg->low_snr_db;
+        if (ev->low_confidence && sl < hw) /* below the threshold region the bound is not met */
+            sl = hw;
+        ev->delay_uncertainty_s = sqrt(sl * sl + sl0 * sl0) / rate_hz;
+        st = se_distmap_distance(map, ev->delay_s, &ev->distance_m, err);
+        if (st == SE_OK)
+            st = se_distmap_speed(map, ev->distance_m, &vloc, err);
+        if (st == SE_OK)
+            st = se_distmap_distance_sigma(map, ev->delay_s, &sd_v, err);
+        if (st != SE_OK)
+            goto done;
+        sd_t = 0.5 * vloc * ev->delay_uncertainty_s;
+        ev->distance_uncertainty_m = z * sqrt(sd_t * sd_t + sd_v * sd_v);
+        ev->multiple = 0;
+        ev->multiple_of[0] = ev->multiple_of[1] = -1;
+    }
+    res->n_events = npeaks;
+    se_label_multiples(res->events, npeaks, cfg->source_reflection, hw / rate_hz);
+    res->rate_hz = rate_hz;
+    res->t0_s = lag0 / rate_hz;
+    res->direct_amplitude = a0;
+    res->noise_level = sigma / fabs(a0) / fabs(one_plus_rs);
+    res->threshold = thr / fabs(a0) / fabs(one_plus_rs);
+    res->threshold_sigma = kthr;
+    res->dead_zone_s = (double)dead / rate_hz;
+    st = se_distmap_distance(map, res->dead_zone_s, &res->dead_zone_m, err);
+    if (st == SE_OK)
+        st = se_distmap_distance(map, (double)(end - 1 - k0) / rate_hz, &res->record_range_m, err);
+    if (st != SE_OK)
+        goto done;
+    res->resolution_s = hw / rate_hz;
+    res->resolution_m = 0.5 * v0 * res->resolution_s;
+    res->rms_bandwidth_hz = beta_crb / (2.0 * SE_PI) * rate_hz;
+    res->reference_length = m;
+    res->speed_m_s = v0;
+    res->electrical = se_quantity_is_electrical(cfg->quantity);
+    res->quantity = cfg->quantity;
+
+done:
+    free(peaks);
+    se_acf_destroy(acf);
+    se_xcorr_work_destroy(xw);
+    se_xcorr_destroy(xc);
+    free(r);
+    free(ref);
+    free(x);
+    se_distmap_destroy(own_map);
+    if (st != SE_OK)
+        se_locate_result_free(res);
+    return st;
+}
+
+/* Label events explained by earlier ones (REFERENCE.md 2, Backus 1959): the source-end multiple
+ * of i and j at t_i + t_j with about r_s r_i r_j; the peg-leg between reflectors i < j at
+ * 2 t_j - t_i with about -r_i r_j^2 / (1 - r_i^2) in terms of the amplitudes seen; and anything
+ * after a full reflection (|r| > 0.9: end, break, full clamp), where nothing real is seen. A
+ * candidate must fall within the timing tolerance, carry the predicted sign and lie within a
+ * factor of three of the predicted size. Multiples are never promoted to faults. */
+static void se_label_multiples(se_event *ev, size_t n, double source_r, double resolution_s)
+{
+    size_t e, i, j;
+    for (e = 0; e < n; e++) {
+        double te = ev[e].delay_s, ae = ev[e].reflection;
+        double tol = 3.0 * ev[e].delay_uncertainty_s + 0.5 * resolution_s;
+        for (i = 0; i < e && !ev[e].multiple; i++) {
+            if (ev[i].multiple)
+                continue;
+            if (fabs(ev[i].reflection) > 0.9 && te > ev[i].delay_s + resolution_s) {
+                ev[e].multiple = 1;
+                ev[e].multiple_of[0] = (int)i;
+                break;
+            }
+            for (j = i; j < e; j++) {
+                double ri = ev[i].reflection, rj = ev[j].reflection, pred, tp;
+                if (ev[j].multiple)
+                    continue;
+                /* source end: down, i, source end, j (and the reverse path: twice when i != j) */
+                if (source_r != 0.0) {
+                    tp = ev[i].delay_s + ev[j].delay_s;
+                    pred = source_r * ri * rj * (i == j ? 1.0 : 2.0);
+                    if (fabs(te - tp) < tol && pred * ae > 0.0 && fabs(ae) < 3.0 * fabs(pred) &&
+                        fabs(ae) > fabs(pred) / 3.0) {
+                        ev[e].multiple = 1;
+                        ev[e].multiple_of[0] = (int)i;
+                        ev[e].multiple_of[1] = (int)j;
+                        break;
+                    }
+                }
+                /* between reflectors i < j */
+                if (j > i && fabs(ri) < 1.0) {
+                    tp = 2.0 * ev[j].delay_s - ev[i].delay_s;
+                    pred = -ri * rj * rj / (1.0 - ri * ri);
+                    if (fabs(te - tp) < tol && pred * ae > 0.0 && fabs(ae) < 3.0 * fabs(pred) &&
+                        fabs(ae) > fabs(pred) / 3.0) {
+                        ev[e].multiple = 1;
+                        ev[e].multiple_of[0] = (int)i;
+                        ev[e].multiple_of[1] = (int)j;
+                        break;
+                    }
+                }
+            }
+        }
+    }
+}
