@@ -43,17 +43,22 @@ def locate(path, *args):
 def write(path, rate, trace, inj, seed, noise):
     rng = np.random.default_rng(seed)
     x = trace + noise * rng.standard_normal(len(trace))
+    if path.endswith(".csv"):  # an oscilloscope-style export: time column, then the channels
+        t = np.arange(len(x)) / rate
+        np.savetxt(path, np.stack([t, x, inj], axis=1), delimiter=",", fmt="%.12e",
+                   header="Time (s),CH1 (V),CH2 (V)", comments="")
+        return
     data = np.stack([x, inj], axis=1).astype(np.float32) * 0.5
     wavfile.write(path, int(rate), data)
 
 
-def run_case(name, rate, speed, pulse, reflectors, end, source_r, noise, tol_m, args):
+def run_case(name, rate, speed, pulse, reflectors, end, source_r, noise, tol_m, args, ext=".wav"):
     n = int(2.2 * end[0] / speed * rate) + 4 * len(pulse) + 1000
     t0 = 2 * len(pulse) / rate
     ifs = [(d / speed, r) for d, r in reflectors] + [(end[0] / speed, end[1])]
     trace, inj = layered_line.response(pulse, rate, n, t0, ifs, source_r)
     with tempfile.TemporaryDirectory(dir=".") as tmp:
-        path = os.path.join(tmp, name + ".wav")
+        path = os.path.join(tmp, name + ext)
         write(path, rate, trace, inj, 7, noise)
         res = locate(path, "--pulse-channel", "2", *args)
     prim = [e for e in res["events"]]
@@ -80,7 +85,7 @@ vcable = 0.66 * 299792458.0
 quantum = vcable / 2 / 1e9
 run_case("cable", 1e9, vcable, layered_line.gauss_pulse(1e9, 10e-9),
          [(31.1234, 0.25), (77.7071, -0.15)], (140.0313, 0.9), 0.0, 1e-4, 0.1 * quantum,
-         ["--velocity-factor", "0.66", "--quantity", "voltage"])
+         ["--velocity-factor", "0.66", "--quantity", "voltage"], ext=".csv")
 
 if failures:
     print("%d failures" % failures)
