@@ -1,0 +1,122 @@
+/* strandecho: detection on the matched-filter output r (see xcorr.h): robust noise scale, Rice
+ * thresholds, the reference pulse's autocorrelation, CLEAN peak search and band-limited sub-sample
+ * refinement.
+ *
+ * Units: lags and widths in samples of r (index into r), bandwidths in rad/sample, amplitudes in
+ * r's units (for se_xcorr's normalisation, the reflection coefficient times losses).
+ *
+ * Threads: se_acf_create plans FFTW transforms (FFTW_ESTIMATE): call it from one thread at a time.
+ * Everything else here is reentrant: a const se_acf may be shared between threads.
+ */
+#ifndef SE_DETECT_H
+#define SE_DETECT_H
+
+#include <stddef.h>
+
+#include "strandecho/error.h"
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+/* Autocorrelation of the reference pulse s [size: m], normalised acf(0) = 1:
+ *   acf(k) = (1/E_s) sum_j s[j+k] s[j],  |k| <= m-1,  0 beyond.
+ * An echo a * s delayed by tau samples gives r(k) = a acf(k - tau). Fractional lags use the
+ * band-limited (trigonometric) interpolant of the integer-lag sequence, tabulated at 1/32 sample
+ * (fewer for very long pulses) and read by cubic Hermite interpolation. */
+typedef struct se_acf se_acf;
+/* pulse [size: m] is read, not kept. NULL and err on: NULL pulse, m = 0, non-finite sample (named),
+ * zero energy, allocation or FFT planning failure. */
+se_acf *se_acf_create(const double *pulse, size_t m, se_error *err);
+/* NULL accepted. */
+void se_acf_destroy(se_acf *a);
+/* m - 1: the support is lags [-(m-1), m-1]. */
+size_t se_acf_half_length(const se_acf *a);
+/* Band-limited value at a fractional lag (samples); even in lag; 0 for |lag| > m-1 or NaN lag. */
+double se_acf_value(const se_acf *a, double lag);
+/* beta_d of the pulse, rad/sample: sqrt(-acf''(0)) = sqrt(int w^2 |S|^2 / int |S|^2) over (-pi, pi]
+ * (Kay 1993, ch. 3), computed exactly from the integer lags:
+ *   -acf''(0) = pi^2/3 + 4 sum_{k>=1} (-1)^k acf(k) / k^2.
+ * Gaussian pulse exp(-t^2/(2 w^2)): 1/(sqrt(2) w). */
+double se_acf_rms_bandwidth(const se_acf *a);
+/* Half width of the main lobe, samples: the lag of the first zero crossing of acf, or of its first
+ * local minimum, whichever comes first; for a lobe that decays monotonically without either (a
+ * Gaussian pulse) the lag where acf first falls below 1e-3. At most m - 1. */
+double se_acf_mainlobe_half_width(const se_acf *a);
+/* Smallest L such that |acf(k)| < level for every integer |k| > L (level in (0,1)); 0 for a level
+ * outside (0,1). */
+size_t se_acf_extent(const se_acf *a, double level);
+
+/* Robust noise scale of r. */
+typedef struct se_noise {
+    double sigma;   /* 1.4826 * median |r - median r| (MAD; Rousseeuw & Croux, JASA 88, 1993) */
+    double median;  /* median of r over the samples used */
+    size_t n_used;  /* number of samples used */
+    double beta;    /* rad/sample, measured from the data: sigma of the first differences r[i+1]-r[i]
+                       (same MAD estimator) over sigma; ~ sqrt(-rho''(0)) for an oversampled
+                       process, the bandwidth Rice's formula needs. 0 if fewer than 2 samples. */
+} se_noise;
+/* Noise of r[start..end) [r size: >= end]. If the range holds more than max_samples values
+ * (0 = 1<<20), a strided sample of at most max_samples of them is used (with the difference at each
+ * sampled position). Medians by O(n) selection (quickselect), no full sort. Errors: NULL r/out,
+ * empty range or end before start (SE_ERR_ARG), a non-finite sample (named, SE_ERR_DATA),
+ * allocation. */
+se_status se_noise_mad(const double *r, size_t start, size_t end, size_t max_samples, se_noise *out,
+                       se_error *err);
+
+/* Rice (S.O. Rice, BSTJ 23-24, 1944-45): the expected number of peaks of |r| above k sigma in
+ * n_lags lags of a Gaussian process of rms bandwidth beta (rad/sample) is about
+ * n_lags beta/pi exp(-k^2/2) (upcrossings of +k sigma and downcrossings of -k sigma). Returns
+ * k = sqrt(2 ln(n_lags beta / (pi false_alarms))) for the stated false-alarm count per record,
+ * clamped to k >= 3. REFERENCE.md: n = 2^22, Gaussian w = 2 -> k = 5.1 for 1, 5.9 for 0.01.
+ * Returns NaN if an argument is not positive and finite. */
+double se_rice_k(double n_lags, double beta_rad_per_sample, double false_alarms);
+
+typedef struct se_peak {
+    double lag;        /* refined fractional lag, samples (index into r) */
+    double amplitude;  /* signed r value at the refined lag (band-limited), in r's units */
+    size_t index;      /* integer argmax it came from */
+} se_peak;
+
+typedef struct se_detect_config {
+    size_t start, end;    /* lag range [start, end) searched */
+    double threshold;     /* absolute threshold on |r| (> 0), r's units */
+    size_t max_peaks;     /* stop after this many (0 = 256) */
+    const se_acf *acf;    /* for CLEAN subtraction of each found echo's sidelobes; required, borrowed */
+    const se_peak *known; /* [size: n_known] echoes already found outside the range (e.g. the direct */
+    size_t n_known;       /* arrival) whose sidelobes are subtracted first; may be NULL/0 */
+} se_detect_config;
+
+/* CLEAN (J. Hogbom, A&AS 15, 1974) on r [size: n]: repeatedly take the largest |residual| in
+ * [start, end), refine it (se_refine_peak on the residual, window from the acf extent at 1e-6, at
+ * least 16), record it, subtract amplitude * acf(k - lag) from the residual, until the largest is
+ * below threshold or max_peaks are found. After each new echo, the echoes whose acf supports overlap
+ * it are put back, re-refined and subtracted again (back-fitting, up to 8 sweeps), so overlapping
+ * echoes leave no residual lobes to be reported as false peaks. r is not modified (the residual is a private copy of the
+ * range plus margins). *peaks: malloc'd array sorted by lag (caller frees), NULL when none;
+ * *npeaks: its length. Errors: NULL arguments, missing acf, bad range or threshold (SE_ERR_ARG);
+ * non-finite r in the range or its margins (named, SE_ERR_DATA); allocation. */
+se_status se_detect(const double *r, size_t n, const se_detect_config *cfg, se_peak **peaks,
+                    size_t *npeaks, se_error *err);
+
+/* Band-limited sub-sample refinement of the peak of |r| near integer index k, r [size: n].
+ * k is first moved uphill to the local maximum of |r|. A window of r around it, window_half samples
+ * each side (0 = auto from the data: doubled from 16 while the envelope at its edges still falls
+ * and exceeds 1e-7 of the peak), tapered to zero over its outer half (cosine), is interpolated by its
+ * trigonometric (DFT) interpolant, evaluated through the Dirichlet kernel (the same values as
+ * zero-padded FFT upsampling, without planning an FFT per call), and |interpolant| is maximised over
+ * (k-1, k+1) with GSL's Brent minimiser (gsl_min_fminimizer_brent) to 1e-9 sample.
+ * *lag: refined lag (samples, index into r); *amp: signed interpolant value there.
+ * Noise-free bias ~1e-8 sample for the Gaussian w = 2 and Ricker f0 = 0.1 pulses (tests/test_refine.c).
+ * Errors: NULL arguments, k >= n, n < 3 (SE_ERR_ARG); non-finite r in the window (SE_ERR_DATA);
+ * |r| zero at the peak (SE_ERR_DATA); allocation. A minimiser that does not converge in 100
+ * iterations returns SE_ERR_NUMERIC. GSL's error handler is not called for valid inputs (the
+ * bracket is checked first), except on GSL's own allocation failure. */
+se_status se_refine_peak(const double *r, size_t n, size_t k, size_t window_half, double *lag,
+                         double *amp, se_error *err);
+
+#ifdef __cplusplus
+}
+#endif
+
+#endif /* SE_DETECT_H */
