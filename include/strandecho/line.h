@@ -148,9 +148,9 @@ typedef struct se_expected_event {
     const char *kind;        /* borrowed: "junction", the feature's kind, or the end's termination word */
     size_t segment;          /* segment containing it (junction: the nearer segment) */
     double distance_m;       /* from the sensor (m) */
-    double distance_sigma_m; /* 1-sigma uncertainty of that distance given the speeds (m), sum of (e_j l_j)^2 */
+    double distance_sigma_m; /* 1-sigma distance uncertainty (m): sqrt(sum (e_j l_j)^2), see distmap.h */
     double round_trip_s;     /* predicted delay (s) */
-    double round_trip_sigma_s; /* 1-sigma uncertainty of the delay (s), sum of (e_j t_j)^2 */
+    double round_trip_sigma_s; /* 1-sigma delay uncertainty (s): sqrt(sum (e_j t_j)^2) */
     int has_reflection;      /* 0 if the coefficient is unknown (feature without reflection, missing impedance) */
     double reflection;       /* coefficient at the discontinuity, observed convention */
     double transmission;     /* two-way transmission through every interface in front: prod (1 - r_k^2) */
@@ -194,8 +194,8 @@ se_line *se_line_parse_string(const char *text, const char *name_for_messages, s
 /* Free a line and everything it owns (NULL accepted). */
 void se_line_free(se_line *line);
 
-/* Programmatic construction. An empty line with defaults (source end continuing, end fixed-like
- * coefficient unset: set it with se_line_set_end). name may be NULL. */
+/* Programmatic construction. An empty line: source end "continuing" (0), far end unset (set it
+ * with se_line_set_end before se_line_prepare). name may be NULL. Free with se_line_free. */
 se_line *se_line_create(const char *name, se_wave_kind wave, se_quantity quantity, se_error *err);
 /* Fill a segment with defaults: every value NAN, uncertainty 0, scale 1, rho_w 1025, C_a 1. */
 void se_segment_init(se_segment *seg);
