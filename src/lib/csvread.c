@@ -33,6 +33,8 @@ static char se_csv_detect(const char *s);
 static int se_csv_field(const char *s, size_t *pos, int *done, char delim, const char **f,
                         size_t *flen);
 static int se_csv_number(const char *f, size_t flen, double *v);
+static int se_csv_is_hex(const char *f, size_t flen);
+static int se_csv_decimal_comma(const char *f, size_t flen);
 static se_status se_csv_line(se_csv *t, const char *s, size_t lineno, se_error *err);
 static se_status se_csv_append(se_csv *t, size_t lineno, se_error *err);
 static int se_csv_cmp(const void *a, const void *b);
@@ -94,12 +96,38 @@ static int se_csv_field(const char *s, size_t *pos, int *done, char delim, const
     return 1;
 }
 
-/* Whole field as a number (strtod; the caller has selected the C locale). 1 on success. */
+/* 1 when the field is a hexadecimal number ("0x1p3"): strtod reads those, a table never means them. */
+static int se_csv_is_hex(const char *f, size_t flen)
+{
+    size_t i = 0;
+    if (i < flen && (f[i] == '+' || f[i] == '-'))
+        i++;
+    return flen - i >= 2 && f[i] == '0' && (f[i + 1] == 'x' || f[i + 1] == 'X');
+}
+
+/* 1 when the field is digits, one comma, digits ("0,001"): a number written with a decimal comma. */
+static int se_csv_decimal_comma(const char *f, size_t flen)
+{
+    size_t i = 0, before = 0, after = 0;
+    if (i < flen && (f[i] == '+' || f[i] == '-'))
+        i++;
+    while (i < flen && f[i] >= '0' && f[i] <= '9') {
+        i++;
+        before++;
+    }
+    if (i >= flen || f[i] != ',' || before == 0)
+        return 0;
+    for (i++; i < flen && f[i] >= '0' && f[i] <= '9'; i++)
+        after++;
+    return after > 0 && i == flen;
+}
+
+/* Whole field as a decimal number (strtod; the caller has selected the C locale). 1 on success. */
 static int se_csv_number(const char *f, size_t flen, double *v)
 {
     char buf[SE_CSV_FIELD_MAX];
     char *end;
-    if (flen == 0 || flen >= sizeof buf)
+    if (flen == 0 || flen >= sizeof buf || se_csv_is_hex(f, flen))
         return 0;
     memcpy(buf, f, flen);
     buf[flen] = '\0';
@@ -151,7 +179,13 @@ static se_status se_csv_line(se_csv *t, const char *s, size_t lineno, se_error *
     if (t->delim == 0) {
         char delim = se_csv_detect(s);
         size_t n = 0;
-        if (!se_csv_field(s, &pos, &done, delim, &f, &flen) || !se_csv_number(f, flen, &v))
+        if (!se_csv_field(s, &pos, &done, delim, &f, &flen))
+            return SE_OK;
+        if (delim != ',' && se_csv_decimal_comma(f, flen))
+            return se_fail(err, SE_ERR_FORMAT,
+                           "%s:%zu:1: '%.*s' has a decimal comma; write numbers with a decimal point",
+                           t->path, lineno, (int)(flen > 40 ? 40 : flen), f);
+        if (!se_csv_number(f, flen, &v))
             return SE_OK; /* header line */
         pos = 0;
         done = 0;
@@ -176,6 +210,9 @@ static se_status se_csv_line(se_csv *t, const char *s, size_t lineno, se_error *
             continue; /* counted for the ragged-row message */
         if (flen == 0)
             return se_fail(err, SE_ERR_FORMAT, "%s:%zu:%zu: missing value", t->path, lineno, col);
+        if (se_csv_is_hex(f, flen))
+            return se_fail(err, SE_ERR_FORMAT, "%s:%zu:%zu: '%.*s' is not a decimal number", t->path,
+                           lineno, col, (int)(flen > 40 ? 40 : flen), f);
         if (!se_csv_number(f, flen, &v))
             return se_fail(err, SE_ERR_FORMAT, "%s:%zu:%zu: '%.*s' is not a number", t->path, lineno,
                            col, (int)(flen > 40 ? 40 : flen), f);
@@ -225,6 +262,8 @@ static se_status se_csv_parse(se_csv *t, FILE *fp, se_error *err)
     if (s == SE_OK && ferror(fp))
         s = se_fail(err, SE_ERR_IO, "%s:%zu: read error: %s", t->path, lineno + 1, strerror(errno));
     free(line);
+    if (s == SE_OK && lineno == 0)
+        s = se_fail(err, SE_ERR_FORMAT, "%s: no numeric data rows: the file is empty (0 bytes)", t->path);
     if (s == SE_OK && t->rows == 0)
         s = se_fail(err, SE_ERR_FORMAT, "%s: no numeric data rows (%zu lines read)", t->path, lineno);
     return s;

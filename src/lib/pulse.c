@@ -379,7 +379,15 @@ static void se_fmt_shortest(double v, double scale, se_unit_kind kind, const cha
         if (se_unit_parse(buf, kind, NULL, &back, NULL) == SE_OK && back == v)
             return;
     }
-    snprintf(buf, size, "%.17g%s", v / scale, unit);
+    /* No digits in the scaled unit give v back (2002 Hz: 2.002 kHz parses to 2001.9999999999998),
+     * so write it in the SI unit, where the factor is 1 and 17 digits always round-trip. */
+    if (scale != 1.0) {
+        char si[16];
+        snprintf(si, sizeof si, "%s%s", unit[0] == ' ' ? " " : "", se_unit_si_name(kind));
+        se_fmt_shortest(v, 1.0, kind, si, buf, size);
+        return;
+    }
+    snprintf(buf, size, "%.17g%s", v, unit);
 }
 
 static void se_fmt_time(double t, char *buf, size_t size)
