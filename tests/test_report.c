@@ -1,0 +1,391 @@
+/* HTML report: a single-recording report and a three-line survey built from hand-made locate
+ * results. Checks: every tag it emits is balanced, nothing points outside the file (no http(s)
+ * URL, no src=, no script, only local url(#...) references), each event's distance and every
+ * caution are present, user strings are escaped, expected versus found pairs the shackle and flags
+ * the unexpected reflection, the uncertainty statement follows the speed uncertainty, feet, ids
+ * unique across plots, the same bytes twice. With "--html-out DIR" it writes report-sample.html
+ * and survey-sample.html into DIR (the browser test uses that); by default into the build folder. */
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "strandecho/caution.h"
+#include "strandecho/jsonout.h"
+#include "strandecho/line.h"
+#include "strandecho/locate.h"
+#include "strandecho/plot.h"
+#include "strandecho/report.h"
+#include "testutil.h"
+
+/* LeakSanitizer hook, read only by -DSE_SANITIZE builds: fontconfig (loaded by cairo's toy text API)
+ * keeps its configuration cache for the life of the process by design; that is not our leak. */
+const char *__lsan_default_suppressions(void);
+const char *__lsan_default_suppressions(void)
+{
+    return "leak:libfontconfig.so\n";
+}
+
+#define RATE 100000.0 /* Hz */
+#define SPEED 3000.0  /* m/s */
+#define T0 0.002      /* s: direct arrival in the record */
+#define NS 80000      /* samples: 0.8 s, reaches 1197 m */
+
+/* A made-up reflectogram: a smooth pulse (Hann-windowed cosine, 0.4 ms) at each event's delay on
+ * low noise from a fixed-seed generator. The events are set by hand, as a locator would fill them. */
+typedef struct fixture {
+    double *trace;
+    se_locate_result res;
+    se_event ev[5];
+} fixture;
+
+static double pulse(double dt)
+{
+    const double half = 0.0002;
+    if (fabs(dt) >= half)
+        return 0.0;
+    return 0.5 * (1.0 + cos(3.14159265358979 * dt / half)) * cos(2.0 * 3.14159265358979 * 2500.0 * dt);
+}
+
+static void make_fixture(fixture *f)
+{
+    static const double dist[5] = {250.0, 500.0, 600.0, 820.0, 1000.0};
+    static const double refl[5] = {0.30, 0.09, -0.20, 0.03, -0.55};
+    unsigned long long seed = 12345u;
+    size_t i, k;
+    memset(f, 0, sizeof *f);
+    f->trace = calloc(NS, sizeof *f->trace);
+    for (i = 0; i < NS; i++) {
+        double t = (double)i / RATE, u;
+        seed = seed * 6364136223846793005ull + 1442695040888963407ull;
+        u = (double)(seed >> 11) / 9007199254740992.0 - 0.5;
+        f->trace[i] = 0.004 * u + pulse(t - T0);
+        for (k = 0; k < 5; k++)
+            f->trace[i] += refl[k] * pulse(t - T0 - 2.0 * dist[k] / SPEED);
+    }
+    for (k = 0; k < 5; k++) {
+        se_event *e = &f->ev[k];
+        e->delay_s = 2.0 * dist[k] / SPEED;
+        e->distance_m = dist[k];
+        e->distance_uncertainty_m = 0.4;
+        e->delay_uncertainty_s = 1e-6;
+        e->reflection = refl[k];
+        e->polarity = refl[k] > 0 ? 1 : -1;
+        e->impedance_increase = refl[k] < 0; /* velocity: an inverted echo is an increase */
+        e->snr_db = k == 3 ? 14.0 : 35.0;
+        e->low_confidence = k == 3;
+        e->multiple = k == 1; /* 500 m = twice the 250 m reflector */
+        e->multiple_of[0] = k == 1 ? 0 : -1;
+        e->multiple_of[1] = -1;
+        e->expected = -1;
+    }
+    f->res.events = f->ev;
+    f->res.n_events = 5;
+    f->res.rate_hz = RATE;
+    f->res.t0_s = T0;
+    f->res.direct_amplitude = 1.0;
+    f->res.noise_level = 0.0012;
+    f->res.threshold = 0.02;
+    f->res.threshold_sigma = 5.2;
+    f->res.dead_zone_s = 2.0 * 30.0 / SPEED;
+    f->res.dead_zone_m = 30.0;
+    f->res.resolution_s = 2.0 * 0.15 / SPEED * 2.0;
+    f->res.resolution_m = 0.3;
+    f->res.rms_bandwidth_hz = 3000.0;
+    f->res.record_range_m = 1197.0;
+    f->res.speed_m_s = SPEED;
+    f->res.quantity = SE_Q_VELOCITY;
+}
+
+static se_line *make_line(void)
+{
+    se_error err;
+    se_line *ln = se_line_create("Leg <A> & test", SE_WAVE_LONGITUDINAL, SE_Q_VELOCITY, &err);
+    se_segment seg;
+    se_feature feat;
+    if (ln == NULL)
+        return NULL;
+    se_segment_init(&seg);
+    seg.name = "chain top";
+    seg.length_m = 400.0;
+    seg.speed_given_m_s = SPEED;
+    memset(&feat, 0, sizeof feat);
+    feat.name = "shackle S1";
+    feat.kind = "shackle";
+    feat.at_m = 250.0;
+    seg.features = &feat;
+    seg.n_features = 1;
+    if (se_line_add_segment(ln, &seg, &err) != SE_OK)
+        goto fail;
+    se_segment_init(&seg);
+    seg.name = "wire";
+    seg.length_m = 600.0;
+    seg.speed_given_m_s = SPEED;
+    if (se_line_add_segment(ln, &seg, &err) != SE_OK || se_line_set_end(ln, "fixed", &err) != SE_OK ||
+        se_line_prepare(ln, &err) != SE_OK)
+        goto fail;
+    return ln;
+fail:
+    fprintf(stderr, "line: %s\n", err.message);
+    se_line_free(ln);
+    return NULL;
+}
+
+/* Elements that have no end tag in HTML. */
+static int is_void(const char *name, size_t n)
+{
+    static const char *const v[] = {"meta", "br", "hr", "img", "input", "link", "wbr", NULL};
+    size_t i;
+    for (i = 0; v[i] != NULL; i++)
+        if (strlen(v[i]) == n && strncmp(v[i], name, n) == 0)
+            return 1;
+    return 0;
+}
+
+/* 1 when every start tag has its end tag in order (self-closing "/>" and void elements excepted). */
+static int balanced(const char *html)
+{
+    const char *stack[512];
+    size_t len[512], depth = 0;
+    const char *p = html;
+    while ((p = strchr(p, '<')) != NULL) {
+        const char *name, *gt = strchr(p, '>');
+        size_t n;
+        int closing;
+        if (gt == NULL)
+            return 0;
+        if (p[1] == '!' || p[1] == '?') {
+            p = gt + 1;
+            continue;
+        }
+        closing = p[1] == '/';
+        name = p + 1 + closing;
+        for (n = 0; name[n] && name[n] != ' ' && name[n] != '>' && name[n] != '/' && name[n] != '\n'; n++)
+            ;
+        if (closing) {
+            if (depth == 0 || len[depth - 1] != n || strncmp(stack[depth - 1], name, n) != 0) {
+                fprintf(stderr, "unbalanced </%.*s> at offset %ld\n", (int)n, name, (long)(p - html));
+                return 0;
+            }
+            depth--;
+        } else if (gt[-1] != '/' && !is_void(name, n)) {
+            if (depth == 512)
+                return 0;
+            stack[depth] = name;
+            len[depth++] = n;
+        }
+        p = gt + 1;
+    }
+    if (depth != 0)
+        fprintf(stderr, "unclosed <%.*s>\n", (int)len[depth - 1], stack[depth - 1]);
+    return depth == 0;
+}
+
+static int self_contained(const char *html)
+{
+    const char *p = html;
+    if (strstr(html, "http://") || strstr(html, "https://") || strstr(html, "src=") || strstr(html, "<script") ||
+        strstr(html, "@import") || strstr(html, "<link"))
+        return 0;
+    while ((p = strstr(p, "url(")) != NULL) {
+        if (p[4] != '#')
+            return 0;
+        p += 4;
+    }
+    return 1;
+}
+
+/* HTML-escape s into out as the report does. */
+static void esc(const char *s, char *out, size_t size)
+{
+    size_t o = 0;
+    for (; *s && o + 7 < size; s++) {
+        const char *r = NULL;
+        switch (*s) {
+        case '&': r = "&amp;"; break;
+        case '<': r = "&lt;"; break;
+        case '>': r = "&gt;"; break;
+        case '"': r = "&quot;"; break;
+        case '\'': r = "&#39;"; break;
+        default: out[o++] = *s; continue;
+        }
+        memcpy(out + o, r, strlen(r));
+        o += strlen(r);
+    }
+    out[o] = '\0';
+}
+
+static size_t count(const char *h, const char *needle)
+{
+    size_t n = 0;
+    while ((h = strstr(h, needle)) != NULL) {
+        n++;
+        h += strlen(needle);
+    }
+    return n;
+}
+
+static int write_text(const char *path, const char *text)
+{
+    FILE *fp = fopen(path, "w");
+    if (fp == NULL)
+        return 0;
+    fputs(text, fp);
+    return fclose(fp) == 0;
+}
+
+int main(int argc, char **argv)
+{
+    fixture f[3];
+    se_line *line = make_line();
+    se_run_info info[3];
+    se_plot_data pd[3];
+    se_report_line rl[3];
+    se_report rep;
+    se_report_param extra[1] = {{"max events", "64 <default>"}};
+    se_error err;
+    char *html, *again, path[1024], dir[512], buf[1200];
+    const char *const *cautions;
+    size_t nc, i;
+
+    if (argc == 3 && strcmp(argv[1], "--html-out") == 0)
+        snprintf(dir, sizeof dir, "%s", argv[2]);
+    else
+        se_test_binary_path(dir, sizeof dir, "tests");
+    CHECK(line != NULL);
+    for (i = 0; i < 3; i++) {
+        make_fixture(&f[i]);
+        se_run_info_init(&info[i]);
+        info[i].input_file = i == 0 ? "leg-a <2025>.wav" : (i == 1 ? "leg-b.wav" : "leg-c.wav");
+        info[i].input_sha256 = "9f86d081884c7d659a2feaa0c55ad015a3bf4f1b2b0b822cd15d6c15b0f00a08";
+        info[i].input_format = "WAV float32";
+        info[i].input_frames = NS;
+        info[i].input_channels = 2;
+        info[i].channel = 1;
+        info[i].reference = "channel 2";
+        info[i].speed_source = "--speed 3000 m/s";
+        info[i].speed_uncertainty = i == 0 ? 0.0 : 0.02;
+        info[i].false_alarms = 0.01;
+        info[i].confidence = 0.95;
+        info[i].source_reflection = 0.0;
+        info[i].line_file = "legs/leg-a.yaml";
+        se_plot_data_init(&pd[i]);
+        pd[i].trace = f[i].trace;
+        pd[i].n = NS;
+        pd[i].rate_hz = RATE;
+        pd[i].result = &f[i].res;
+        pd[i].title = "Leg <A> & test";
+        se_report_line_init(&rl[i]);
+        rl[i].result = &f[i].res;
+        rl[i].info = &info[i];
+        rl[i].line = line;
+        rl[i].plot = &pd[i];
+        rl[i].params = extra;
+        rl[i].n_params = 1;
+    }
+    rl[1].name = "Leg B";
+    rl[2].name = "Leg C";
+    rl[2].line = NULL; /* a line with no description: no expected-versus-found */
+    rl[2].note = "Changed since the 2024 baseline: one new reflection at 600 m.";
+
+    se_report_init(&rep);
+    rep.site = "Invented site \"North\"";
+    rep.date = "2025-06-01";
+    rep.lines = rl;
+    rep.n_lines = 1;
+    html = se_report_html(&rep, &err);
+    CHECK(html != NULL);
+    if (html == NULL) {
+        fprintf(stderr, "%s\n", err.message);
+        return se_test_done("report");
+    }
+    CHECK(strncmp(html, "<!DOCTYPE html>", 15) == 0);
+    CHECK(balanced(html));
+    CHECK(self_contained(html));
+    CHECK(strstr(html, "<svg id=\"l1-plot\"") != NULL);
+    CHECK(count(html, "<svg") == 1 && count(html, "</svg>") == 1);
+    CHECK(strstr(html, "Summary") == NULL);
+    /* each event's distance as a table cell */
+    for (i = 0; i < f[0].res.n_events; i++) {
+        char cell[64];
+        snprintf(cell, sizeof cell, "<td class=\"n\">%.1f</td>", f[0].ev[i].distance_m);
+        CHECK(strstr(html, cell) != NULL);
+    }
+    cautions = se_cautions(&nc);
+    CHECK(nc >= 4);
+    for (i = 0; i < nc; i++) {
+        esc(cautions[i], buf, sizeof buf);
+        CHECK(strstr(html, buf) != NULL);
+    }
+    CHECK(strstr(html, "Leg &lt;A&gt; &amp; test") != NULL && strstr(html, "<A>") == NULL);
+    CHECK(strstr(html, "leg-a &lt;2025&gt;.wav") != NULL);
+    CHECK(strstr(html, "Invented site &quot;North&quot;") != NULL);
+    CHECK(strstr(html, "64 &lt;default&gt;") != NULL);
+    CHECK(strstr(html, info[0].input_sha256) != NULL);
+    CHECK(strstr(html, se_version()) != NULL);
+    CHECK(strstr(html, "Distance (m)") != NULL);
+    CHECK(strstr(html, "no speed uncertainty was given") != NULL);
+    CHECK(strstr(html, "95 % confidence interval") != NULL);
+    /* expected versus found: the shackle at 250 m is event 1, the reflection at 600 m is unexpected,
+     * the far end at 1000 m is event 5 */
+    CHECK(strstr(html, "Expected versus found") != NULL);
+    CHECK(strstr(html, "<tr><td>shackle S1</td><td>shackle</td><td class=\"n\">250.0</td>") != NULL);
+    CHECK(strstr(html, "<td>event 1</td>") != NULL && strstr(html, "<td>event 5</td>") != NULL);
+    CHECK(count(html, "<strong>not expected</strong>") == 2); /* 600 m and 820 m */
+    CHECK(strstr(html, "expected: shackle S1") != NULL);
+    CHECK(strstr(html, "multiple of 1: not a fault") != NULL);
+    /* the plot shows the matches: the shackle's triangle is filled */
+    CHECK(strstr(html, "id=\"l1-expected-1\" class=\"se-expected se-found\"") != NULL);
+    again = se_report_html(&rep, &err);
+    CHECK(again != NULL && strcmp(again, html) == 0);
+    free(again);
+    snprintf(path, sizeof path, "%s/report-sample.html", dir);
+    CHECK(se_report_write(&rep, path, &err) == SE_OK);
+    free(html);
+
+    /* Survey of three lines. */
+    rep.n_lines = 3;
+    rep.title = "Mooring survey";
+    html = se_report_html(&rep, &err);
+    CHECK(html != NULL);
+    if (html != NULL) {
+        const char *sum = strstr(html, "<h2>Summary</h2>"), *s1 = strstr(html, "id=\"line-1\"");
+        CHECK(balanced(html));
+        CHECK(self_contained(html));
+        CHECK(sum != NULL && s1 != NULL && sum < s1);
+        CHECK(strstr(html, "id=\"line-3\"") != NULL && strstr(html, "href=\"#line-3\"") != NULL);
+        CHECK(strstr(html, "id=\"l3-event-5\"") != NULL && count(html, "id=\"l1-event-5\"") == 1);
+        CHECK(count(html, "<svg") == 3);
+        CHECK(strstr(html, "2 % .") == NULL && strstr(html, "standard uncertainty of 2 %") != NULL);
+        CHECK(strstr(html, "Changed since the 2024 baseline") != NULL);
+        CHECK(count(html, "Expected versus found") == 2);
+        CHECK(strstr(html, "Reflectometry survey of 3 lines at Invented site") != NULL);
+        CHECK(count(html, "<li>") == nc); /* cautions once, for the whole survey */
+        snprintf(path, sizeof path, "%s/survey-sample.html", dir);
+        CHECK(write_text(path, html));
+    }
+    free(html);
+
+    /* Feet. */
+    rep.n_lines = 1;
+    rep.units = SE_PLOT_FEET;
+    html = se_report_html(&rep, &err);
+    CHECK(html != NULL && strstr(html, "Distance (ft)") && strstr(html, "<td class=\"n\">820.2</td>") &&
+          strstr(html, "distance from the sensor (ft)")); /* 250 m / 0.3048 = 820.21 ft (NIST SP 811) */
+    free(html);
+    rep.units = SE_PLOT_METRES;
+
+    /* Errors. */
+    rl[0].info = NULL;
+    CHECK(se_report_html(&rep, &err) == NULL && err.code == SE_ERR_ARG && strstr(err.message, "line 1"));
+    rl[0].info = &info[0];
+    rep.n_lines = 0;
+    CHECK(se_report_html(&rep, &err) == NULL && err.code == SE_ERR_ARG);
+    rep.n_lines = 1;
+    CHECK(se_report_write(&rep, "/nonexistent-folder/r.html", &err) == SE_ERR_IO);
+
+    for (i = 0; i < 3; i++)
+        free(f[i].trace);
+    se_line_free(line);
+    return se_test_done("report");
+}
