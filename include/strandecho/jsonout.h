@@ -7,6 +7,8 @@
 #include "strandecho/error.h"
 #include "strandecho/locate.h"
 
+struct se_expected_event;
+
 #ifdef __cplusplus
 extern "C" {
 #endif
@@ -31,6 +33,9 @@ typedef struct se_run_info {
     double confidence;           /* interval coverage */
     double source_reflection;    /* source-end coefficient used */
     const char *line_file;       /* line description file or NULL */
+    const struct se_expected_event *expected; /* the line's expected events (matched in the result), or NULL */
+    size_t n_expected;
+    const char *line_name;       /* the line's own name (free text) or NULL */
 } se_run_info;
 
 /* Initialise: all strings NULL, all numbers NaN or 0. */

@@ -13,6 +13,7 @@ extern "C" {
 #endif
 
 struct se_distmap;
+struct se_expected_event;
 
 /* Where the reference pulse came from (for the report). */
 typedef enum se_reference_kind {
@@ -40,6 +41,10 @@ typedef struct se_locate_config {
     size_t reference_length;
     size_t reference_offset;
     se_reference_kind reference_kind;
+    /* Optional expected events of a described line (line.h), sorted by delay, borrowed: detected
+     * events are matched to them within their uncertainties. */
+    const struct se_expected_event *expected;
+    size_t n_expected;
 } se_locate_config;
 
 /* Defaults: velocity, speed 0 (must be set), no speed uncertainty, 0.01 false alarms per record,
@@ -61,6 +66,8 @@ typedef struct se_event {
     int low_confidence;            /* below cfg.low_snr_db: the timing may jump to a wrong peak */
     int multiple;                  /* 1 when explained as a multiple of earlier events */
     int multiple_of[2];            /* indices of the primaries (or -1) when multiple */
+    int expected;                  /* index of the matched expected event, -1 when unexpected (or
+                                      when no line was described) */
 } se_event;
 
 typedef struct se_locate_result {
@@ -78,10 +85,19 @@ typedef struct se_locate_result {
     double resolution_m;     /* the same as a distance (two echoes closer may merge) */
     double rms_bandwidth_hz; /* RMS bandwidth of the reference, Hz (beta / 2 pi * rate) */
     double record_range_m;   /* farthest distance the record reaches */
+    double record_range_s;   /* the same as a round-trip delay after the direct arrival, s */
     size_t reference_length; /* samples of the reference used */
     double speed_m_s;        /* speed at the sensor (uniform line: the speed used) */
     int electrical;          /* 1 for voltage/current (class words open-like/short-like) */
     se_quantity quantity;    /* quantity the events are classified in */
+    /* With expected events: expected_found[k] is the event index matched to expected event k,
+     * or -1 when it is missing; owned. */
+    int *expected_found;     /* [size: n_expected] */
+    size_t n_expected;
+    int end_missing;         /* 1 when the line's end was expected within the record but not found */
+    int break_event;         /* with the end missing: index of the first strong unexpected
+                                impedance-decrease (free-like / short-like) event before it, the
+                                likely break or open fault; -1 otherwise */
 } se_locate_result;
 
 /* Locate reflections in response[size: n] sampled at rate_hz. Fills res (caller frees with
@@ -89,6 +105,13 @@ typedef struct se_locate_result {
 se_status se_locate(const double *response, size_t n, double rate_hz, const se_locate_config *cfg,
                     se_locate_result *res, se_error *err);
 void se_locate_result_free(se_locate_result *res);
+
+/* Match the events of res to expected events (sorted by delay) within z standard uncertainties
+ * (delay uncertainties combined) plus half the resolution, nearest first, signs agreeing where the
+ * expected coefficient is known; multiples are never matched. Fills ev->expected,
+ * res->expected_found, res->end_missing and res->break_event. */
+se_status se_match_expected(se_locate_result *res, const struct se_expected_event *expected,
+                            size_t n_expected, double z, se_error *err);
 
 /* Class word of an event: "fixed-like", "free-like", "open-like" or "short-like". */
 const char *se_event_class(const se_locate_result *res, const se_event *ev);

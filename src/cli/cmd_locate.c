@@ -10,6 +10,7 @@
 #include "strandecho/caution.h"
 #include "strandecho/digest.h"
 #include "strandecho/jsonout.h"
+#include "strandecho/line.h"
 #include "strandecho/locate.h"
 #include "strandecho/output.h"
 #include "strandecho/pulse.h"
@@ -31,7 +32,11 @@ static const char se_locate_usage[] =
     "  --quantity Q             what the sensor measures: displacement velocity acceleration\n"
     "                           force strain voltage current (default velocity; voltage with\n"
     "                           --velocity-factor)\n"
-    "Wave speed (one way):\n"
+    "Line description:\n"
+    "  --line FILE              a line description (docs/line-file.md): speeds per segment,\n"
+    "                           quantity, ends and expected features; echoes are matched to\n"
+    "                           the expected junctions and features, the rest are unexpected\n"
+    "Wave speed (one way, when no --line):\n"
     "  --speed V                m/s (or km/s, ft/s, m/us, ft/us)\n"
     "  --velocity-factor F      times the speed of light (electrical lines)\n"
     "  --tension T --mass-per-length MU        transverse waves, sqrt(T/mu)\n"
@@ -50,7 +55,8 @@ static const char se_locate_usage[] =
 
 static void se_print_table(const se_locate_result *res, const se_recording *rec, unsigned ch,
                            const char *refdesc, const se_speed *sp, double fa, double conf,
-                           int feet, int verbose);
+                           int feet, int verbose, const se_line *line,
+                           const se_expected_event *exp);
 
 static int se_load_reference(const char *pulse, unsigned long pulse_channel, const se_recording *rec,
                              se_locate_config *cfg, double **owned, char *desc, size_t dsize,
@@ -162,7 +168,10 @@ int se_cmd_locate(int argc, char **argv)
     se_recording *rec = NULL;
     se_error err;
     const char *path = NULL, *pulse = NULL, *json = NULL, *quantity = NULL, *v;
-    const char *source_end = NULL, *units = "m";
+    const char *source_end = NULL, *units = "m", *line_path = NULL;
+    se_line *line = NULL;
+    se_expected_event *exp = NULL;
+    size_t nexp = 0;
     unsigned long channel = 1, pulse_channel = 0, max_events = 64;
     double fa = 0.01, conf = 0.95;
     double *refbuf = NULL;
@@ -195,6 +204,7 @@ int se_cmd_locate(int argc, char **argv)
         SE_TAKE("--quantity", quantity)
         SE_TAKE("--source-end", source_end)
         SE_TAKE("--units", units)
+        SE_TAKE("--line", line_path)
         if ((got = se_cli_value(&c, "--channel", &v)) != 0) {
             if (got < 0 || se_cli_uint("--channel", v, 1, 65535, &channel) != 0)
                 return SE_EXIT_USAGE;
@@ -253,7 +263,13 @@ int se_cmd_locate(int argc, char **argv)
         return se_cli_fail(SE_EXIT_USAGE, "give the reference once: --pulse or --pulse-channel");
     if (strcmp(units, "m") != 0 && strcmp(units, "ft") != 0)
         return se_cli_fail(SE_EXIT_USAGE, "--units: '%s' is not m or ft", units);
-    if ((rc = se_cli_speed_resolve(&so, 1, &sp)) != SE_EXIT_OK)
+    if (line_path != NULL &&
+        (so.speed || so.velocity_factor || so.tension || so.axial_stiffness || so.mass_per_length ||
+         so.uncertainty))
+        return se_cli_fail(SE_EXIT_USAGE, "--line %s gives the speeds: drop the speed options (or "
+                                          "drop --line)",
+                           line_path);
+    if ((rc = se_cli_speed_resolve(&so, line_path == NULL, &sp)) != SE_EXIT_OK)
         return rc;
     cfg.speed_m_s = sp.speed_m_s;
     cfg.speed_uncertainty = sp.uncertainty;
@@ -263,18 +279,52 @@ int se_cmd_locate(int argc, char **argv)
     cfg.quantity = sp.electrical_hint ? SE_Q_VOLTAGE : SE_Q_VELOCITY;
     if (quantity != NULL && se_quantity_parse(quantity, &cfg.quantity, &err) != SE_OK)
         return se_cli_fail(SE_EXIT_USAGE, "--quantity: %s", err.message);
-    if (source_end != NULL &&
-        se_termination_parse(source_end, cfg.quantity, &cfg.source_reflection, &err) != SE_OK)
-        return se_cli_fail(SE_EXIT_USAGE, "--source-end: %s", err.message);
-    {
-        const char *inputs[3] = {path, pulse != NULL && !se_pulse_is_spec(pulse) ? pulse : NULL, NULL};
-        if (json != NULL && (rc = se_cli_check_output(json, inputs)) != SE_EXIT_OK)
+    if (line_path != NULL) {
+        line = se_line_read(line_path, &err);
+        if (line == NULL)
+            return se_cli_fail_err(&err, 0);
+        if (quantity != NULL && cfg.quantity != line->quantity) {
+            rc = se_cli_fail(SE_EXIT_USAGE, "--quantity %s differs from the line file's quantity %s",
+                             quantity, se_quantity_name(line->quantity));
+            se_line_free(line);
             return rc;
+        }
+        if (source_end != NULL) {
+            se_line_free(line);
+            return se_cli_fail(SE_EXIT_USAGE, "--line %s gives the source end: drop --source-end",
+                               line_path);
+        }
+        cfg.quantity = line->quantity;
+        cfg.source_reflection = line->source_end_r;
+        cfg.map = se_line_distmap(line);
+        if (se_line_expected_events(line, &exp, &nexp, &err) != SE_OK) {
+            se_line_free(line);
+            return se_cli_fail_err(&err, 0);
+        }
+        cfg.expected = exp;
+        cfg.n_expected = nexp;
+        snprintf(sp.source, sizeof sp.source, "from the line file (%zu segment%s, %.6g m)",
+                 line->n_segments, line->n_segments == 1 ? "" : "s", line->length_m);
+    } else if (source_end != NULL &&
+               se_termination_parse(source_end, cfg.quantity, &cfg.source_reflection, &err) != SE_OK) {
+        return se_cli_fail(SE_EXIT_USAGE, "--source-end: %s", err.message);
+    }
+    {
+        const char *inputs[4] = {path, line_path,
+                                 pulse != NULL && !se_pulse_is_spec(pulse) ? pulse : NULL, NULL};
+        if (inputs[1] == NULL) {
+            inputs[1] = inputs[2];
+            inputs[2] = NULL;
+        }
+        if (json != NULL && (rc = se_cli_check_output(json, inputs)) != SE_EXIT_OK)
+            goto done;
     }
 
     rec = se_recording_read(path, NULL, &err);
-    if (rec == NULL)
-        return se_cli_fail_err(&err, 0);
+    if (rec == NULL) {
+        rc = se_cli_fail_err(&err, 0);
+        goto done;
+    }
     if (channel > rec->channels) {
         rc = se_cli_fail(SE_EXIT_USAGE, "--channel %lu: %s has %u channel%s", channel, path,
                          rec->channels, rec->channels == 1 ? "" : "s");
@@ -317,6 +367,10 @@ int se_cmd_locate(int argc, char **argv)
         info.false_alarms = fa;
         info.confidence = conf;
         info.source_reflection = cfg.source_reflection;
+        info.line_file = line_path;
+        info.line_name = line != NULL ? line->name : NULL;
+        info.expected = exp;
+        info.n_expected = nexp;
         text = se_result_json(&res, &info, &err);
         if (text == NULL) {
             rc = se_cli_fail_err(&err, 1);
@@ -327,8 +381,10 @@ int se_cmd_locate(int argc, char **argv)
     }
     if (!c.quiet && !(json != NULL && strcmp(json, "-") == 0))
         se_print_table(&res, rec, (unsigned)channel, refdesc, &sp, fa, conf, units[0] == 'f',
-                       c.verbose);
+                       c.verbose, line, exp);
 done:
+    free(exp);
+    se_line_free(line);
     free(text);
     free(refbuf);
     se_locate_result_free(&res);
@@ -338,7 +394,8 @@ done:
 
 static void se_print_table(const se_locate_result *res, const se_recording *rec, unsigned ch,
                            const char *refdesc, const se_speed *sp, double fa, double conf,
-                           int feet, int verbose)
+                           int feet, int verbose, const se_line *line,
+                           const se_expected_event *exp)
 {
     const double k = feet ? 1.0 / 0.3048 : 1.0;
     const char *u = feet ? "ft" : "m";
@@ -349,15 +406,26 @@ static void se_print_table(const se_locate_result *res, const se_recording *rec,
     printf("reference: %s, %zu samples (%.4g ms); quantity: %s; %s line\n", refdesc,
            res->reference_length, 1e3 * (double)res->reference_length / res->rate_hz,
            se_quantity_name(res->quantity), res->electrical ? "electrical" : "mechanical");
+    if (line != NULL)
+        printf("line: %s (%s), %zu segment%s, %.2f %s, source end %s, far end %s\n",
+               line->name[0] ? line->name : "(unnamed)", line->source_name, line->n_segments,
+               line->n_segments == 1 ? "" : "s", line->length_m * k, u, line->source_end_name,
+               line->end_name);
     printf("\n");
     printf(" #  distance (%s)  +/- (%s, %.0f %%)  delay (ms)  polarity  impedance  class       "
-           "reflection  SNR (dB)\n",
-           u, u, conf * 100.0);
+           "reflection  SNR (dB)%s\n",
+           u, u, conf * 100.0, line != NULL ? "  expected" : "");
     for (i = 0; i < res->n_events; i++) {
         const se_event *ev = &res->events[i];
-        char note[48] = "";
+        char note[160] = "";
+        if (line != NULL) {
+            if (ev->expected >= 0)
+                snprintf(note, sizeof note, "  %s", exp[ev->expected].name);
+            else if (!ev->multiple)
+                snprintf(note, sizeof note, "  UNEXPECTED");
+        }
         if (ev->low_confidence)
-            snprintf(note, sizeof note, "  low confidence");
+            snprintf(note + strlen(note), sizeof note - strlen(note), "  low confidence");
         if (ev->multiple)
             snprintf(note + strlen(note), sizeof note - strlen(note), "  multiple");
         printf("%2zu  %13.3f  %14.3f  %10.3f  %-8s  %-9s  %-10s  %+10.3f  %8.1f%s\n", i + 1,
@@ -367,10 +435,34 @@ static void se_print_table(const se_locate_result *res, const se_recording *rec,
     }
     if (res->n_events == 0)
         printf("    no reflection above the threshold\n");
+    for (i = 0; line != NULL && i < res->n_expected; i++) {
+        const se_expected_event *x = &exp[i];
+        if (res->expected_found[i] >= 0)
+            continue;
+        if (x->round_trip_s > res->record_range_s)
+            printf("not reached: %s at %.3f %s (beyond the record)\n", x->name, x->distance_m * k, u);
+        else if (x->has_reflection)
+            printf("MISSING: %s at %.3f %s (expected %+.3f at the sensor)\n", x->name,
+                   x->distance_m * k, u, x->amplitude);
+        else
+            printf("MISSING: %s at %.3f %s\n", x->name, x->distance_m * k, u);
+    }
+    if (res->end_missing && res->break_event >= 0) {
+        const se_event *b = &res->events[res->break_event];
+        printf("the end was not found: event %d (%s at %.3f %s) is the likely break\n",
+               res->break_event + 1, se_event_class(res, b), b->distance_m * k, u);
+    } else if (res->end_missing) {
+        printf("the end was not found where the line file puts it\n");
+    }
     printf("\n");
-    printf("speed used: %.6g m/s, %s; speed uncertainty %.3g %% (one standard uncertainty)%s\n",
-           res->speed_m_s, sp->source, sp->uncertainty * 100.0,
-           sp->uncertainty == 0.0 ? ": distance intervals are timing-only" : "");
+    if (line != NULL)
+        printf("speed at the sensor: %.6g m/s, %s; per-segment speed uncertainties from the file\n",
+               res->speed_m_s, sp->source);
+    else
+        printf("speed used: %.6g m/s, %s; speed uncertainty %.3g %% (one standard "
+               "uncertainty)%s\n",
+               res->speed_m_s, sp->source, sp->uncertainty * 100.0,
+               sp->uncertainty == 0.0 ? ": distance intervals are timing-only" : "");
     printf("noise level %.3g, threshold %.3g (%.2f sigma for %g false alarm%s per record), in "
            "reflection units\n",
            res->noise_level, res->threshold, res->threshold_sigma, fa, fa == 1.0 ? "" : "s");

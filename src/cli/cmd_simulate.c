@@ -6,6 +6,8 @@
 
 #include "cli.h"
 #include "commands.h"
+#include "strandecho/distmap.h"
+#include "strandecho/line.h"
 #include "strandecho/pulse.h"
 #include "strandecho/recording.h"
 #include "strandecho/simulate.h"
@@ -37,6 +39,10 @@ static const char se_simulate_usage[] =
     "  --noise RMS              Gaussian noise, RMS relative to the pulse peak (default 0)\n"
     "  --seed N                 noise seed (default 1)\n"
     "  --pulse-start T          injection time (default twice the pulse length)\n"
+    "  --line FILE              model a described line instead (docs/line-file.md): segments,\n"
+    "                           junctions, features with coefficients, hanging segments and both\n"
+    "                           ends; --reflector adds faults to it, --break D cuts it at D with a\n"
+    "                           free-like end\n"
     "  --gain G                 scale of both channels (default 0.5)\n"
     "  --quiet                  print nothing on success\n";
 
@@ -77,6 +83,75 @@ static int se_parse_number(const char *opt, const char *text, double lo, double 
     return SE_EXIT_OK;
 }
 
+static int se_iface_cmp(const void *a, const void *b)
+{
+    const se_sim_interface *x = a, *y = b;
+    return (x->one_way_s > y->one_way_s) - (x->one_way_s < y->one_way_s);
+}
+
+/* The described line as lattice interfaces, with extra reflectors (faults) and an optional break. */
+static int se_line_model(const se_line *ln, const se_sim_reflector *refl, size_t nrefl,
+                         const char *break_spec, const se_sim_record *rec, se_sim_interface **ifs,
+                         se_sim_line *line)
+{
+    se_error err;
+    se_line_interface *li = NULL;
+    size_t nli = 0, i, n = 0;
+    double break_d = INFINITY, break_rt = INFINITY, r_free;
+    const se_distmap *map = se_line_distmap(ln);
+    se_error_clear(&err);
+    if (break_spec != NULL) {
+        if (se_unit_parse(break_spec, SE_UNIT_LENGTH, "m", &break_d, &err) != SE_OK)
+            return se_cli_fail(SE_EXIT_USAGE, "--break: %s", err.message);
+        if (!(break_d > 0.0 && break_d < ln->length_m))
+            return se_cli_fail(SE_EXIT_USAGE, "--break: %g m is not inside the line (0, %g m)",
+                               break_d, ln->length_m);
+        if (se_distmap_time(map, break_d, &break_rt, &err) != SE_OK)
+            return se_cli_fail_err(&err, 0);
+    }
+    if (se_line_interfaces(ln, 0.25 / rec->rate_hz, &li, &nli, &err) != SE_OK)
+        return se_cli_fail_err(&err, 0);
+    *ifs = malloc((nli + nrefl + 1) * sizeof **ifs);
+    if (*ifs == NULL) {
+        free(li);
+        return se_cli_fail(SE_EXIT_MEMORY, "simulate: out of memory for the line model");
+    }
+    for (i = 0; i < nli; i++) {
+        if (2.0 * li[i].one_way_s >= break_rt)
+            break;
+        if (li[i].reflection == 0.0 && i + 1 < nli)
+            continue;
+        (*ifs)[n].one_way_s = li[i].one_way_s;
+        (*ifs)[n].reflection = li[i].reflection;
+        n++;
+    }
+    free(li);
+    for (i = 0; i < nrefl; i++) {
+        double rt;
+        if (!(refl[i].distance_m < fmin(ln->length_m, break_d)))
+            return se_cli_fail(SE_EXIT_USAGE, "--reflector at %g m is not on the line (length %g m)",
+                               refl[i].distance_m, fmin(ln->length_m, break_d));
+        if (se_distmap_time(map, refl[i].distance_m, &rt, &err) != SE_OK)
+            return se_cli_fail_err(&err, 0);
+        (*ifs)[n].one_way_s = 0.5 * rt;
+        (*ifs)[n].reflection = refl[i].reflection;
+        n++;
+    }
+    if (break_spec != NULL) {
+        if (se_termination_parse("free", ln->quantity, &r_free, &err) != SE_OK)
+            return se_cli_fail_err(&err, 0);
+        (*ifs)[n].one_way_s = 0.5 * break_rt;
+        (*ifs)[n].reflection = r_free;
+        n++;
+    }
+    qsort(*ifs, n, sizeof **ifs, se_iface_cmp);
+    line->interfaces = *ifs;
+    line->n_interfaces = n;
+    line->source_reflection = ln->source_end_r;
+    line->loss_np_per_s = 0.0;
+    return SE_EXIT_OK;
+}
+
 int se_cmd_simulate(int argc, char **argv)
 {
     se_cli c = {argc, argv, 1, 0, 0};
@@ -85,6 +160,8 @@ int se_cmd_simulate(int argc, char **argv)
     se_error err;
     const char *pulse = NULL, *rate = NULL, *duration = NULL, *out = NULL, *v;
     const char *quantity = NULL, *source_end = NULL, *end_spec = NULL, *pulse_start = NULL;
+    const char *line_path = NULL, *break_spec = NULL;
+    se_line *ln = NULL;
     const char *refl_spec[SE_MAX_REFLECTORS];
     size_t nrefl = 0, frames, i;
     double loss = 0.0, noise = 0.0, gain = 0.5, seed = 1.0;
@@ -126,6 +203,8 @@ int se_cmd_simulate(int argc, char **argv)
         SE_TAKE("--source-end", source_end)
         SE_TAKE("--end", end_spec)
         SE_TAKE("--pulse-start", pulse_start)
+        SE_TAKE("--line", line_path)
+        SE_TAKE("--break", break_spec)
         if ((got = se_cli_value(&c, "--reflector", &v)) != 0) {
             if (got < 0)
                 return SE_EXIT_USAGE;
@@ -167,11 +246,25 @@ int se_cmd_simulate(int argc, char **argv)
     if (pulse == NULL || rate == NULL || duration == NULL || out == NULL)
         return se_cli_fail(SE_EXIT_USAGE,
                            "simulate needs --pulse, --rate, --duration and -o (see --help)");
-    if ((rc = se_cli_speed_resolve(&so, 1, &sp)) != SE_EXIT_OK)
+    if (line_path != NULL &&
+        (so.speed || so.velocity_factor || so.tension || so.axial_stiffness || so.mass_per_length ||
+         quantity || source_end || end_spec))
+        return se_cli_fail(SE_EXIT_USAGE, "--line %s gives the speeds, quantity and ends: drop "
+                                          "--speed/--tension/--quantity/--source-end/--end",
+                           line_path);
+    if (break_spec != NULL && line_path == NULL)
+        return se_cli_fail(SE_EXIT_USAGE, "--break goes with --line (use --end D:free otherwise)");
+    if ((rc = se_cli_speed_resolve(&so, line_path == NULL, &sp)) != SE_EXIT_OK)
         return rc;
     q = sp.electrical_hint ? SE_Q_VOLTAGE : SE_Q_VELOCITY;
     if (quantity != NULL && se_quantity_parse(quantity, &q, &err) != SE_OK)
         return se_cli_fail(SE_EXIT_USAGE, "--quantity: %s", err.message);
+    if (line_path != NULL) {
+        ln = se_line_read(line_path, &err);
+        if (ln == NULL)
+            return se_cli_fail_err(&err, 0);
+        q = ln->quantity;
+    }
     if (se_pulse_parse(pulse, &rec.pulse, &err) != SE_OK)
         return se_cli_fail(SE_EXIT_USAGE, "--pulse: %s", err.message);
     if (se_unit_parse(rate, SE_UNIT_FREQUENCY, "Hz", &rec.rate_hz, &err) != SE_OK)
@@ -187,7 +280,13 @@ int se_cmd_simulate(int argc, char **argv)
     for (i = 0; i < nrefl; i++)
         if (se_parse_at("--reflector", refl_spec[i], q, &refl[i].distance_m, &refl[i].reflection) != 0)
             return SE_EXIT_USAGE;
-    if (end_spec != NULL) {
+    if (ln != NULL) {
+        rc = se_line_model(ln, refl, nrefl, break_spec, &rec, &ifs, &line);
+        if (rc != SE_EXIT_OK)
+            goto done;
+        sp.speed_m_s = ln->segments[0].speed_near_m_s;
+        snprintf(sp.source, sizeof sp.source, "line file %s", line_path);
+    } else if (end_spec != NULL) {
         if (se_parse_at("--end", end_spec, q, &end_d, &end_r) != 0)
             return SE_EXIT_USAGE;
     } else {
@@ -205,9 +304,13 @@ int se_cmd_simulate(int argc, char **argv)
     }
     rec.noise_rms = noise;
     rec.seed = (unsigned long)seed;
-    if (se_sim_uniform_line(sp.speed_m_s, refl, nrefl, end_d, end_r, rs, loss, &ifs, &line, &err) !=
-        SE_OK)
+    if (ln != NULL) {
+        if (loss > 0.0)
+            line.loss_np_per_s = loss * log(10.0) / 20.0 * sp.speed_m_s;
+    } else if (se_sim_uniform_line(sp.speed_m_s, refl, nrefl, end_d, end_r, rs, loss, &ifs, &line,
+                                   &err) != SE_OK) {
         return se_cli_fail(se_cli_exit_code(err.code, 0), "simulate: %s", err.message);
+    }
     frames = se_sim_frames(&rec);
     if (frames < 2 || frames > ((size_t)1 << 31)) {
         rc = se_cli_fail(SE_EXIT_USAGE, "simulate: %zu samples is out of range", frames);
@@ -238,11 +341,14 @@ int se_cmd_simulate(int argc, char **argv)
         printf("wrote %s: %zu samples at %.10g Hz, speed %.6g m/s (%s)\n", out, frames, rec.rate_hz,
                sp.speed_m_s, sp.source);
         for (i = 0; i < line.n_interfaces; i++)
-            printf("  interface %zu: %.6f m, round trip %.9f s, coefficient %+.4f%s\n", i + 1,
-                   line.interfaces[i].one_way_s * sp.speed_m_s, 2.0 * line.interfaces[i].one_way_s,
-                   line.interfaces[i].reflection, i + 1 == line.n_interfaces ? " (far end)" : "");
+            if (ln == NULL || nrefl + 8 > line.n_interfaces || i + 1 == line.n_interfaces ||
+                fabs(line.interfaces[i].reflection) > 1e-3)
+                printf("  interface %zu: round trip %.9f s, coefficient %+.4f%s\n", i + 1,
+                       2.0 * line.interfaces[i].one_way_s, line.interfaces[i].reflection,
+                       i + 1 == line.n_interfaces ? " (far end)" : "");
     }
 done:
+    se_line_free(ln);
     free(resp);
     free(inj);
     free(ifs);

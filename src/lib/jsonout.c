@@ -9,6 +9,7 @@
 
 #include "internal.h"
 #include "strandecho/caution.h"
+#include "strandecho/line.h"
 
 static int se_jset(json_t *obj, const char *key, json_t *val);
 static json_t *se_jnum(double v);
@@ -72,6 +73,7 @@ char *se_result_json(const se_locate_result *res, const se_run_info *info, se_er
         bad |= se_jset(root, "reference_sha256", json_string(info->reference_sha256));
     bad |= se_jset(root, "reference_samples", json_integer((json_int_t)res->reference_length));
     bad |= se_jset(root, "line_file", se_jstr(info->line_file));
+    bad |= se_jset(root, "line_name", se_jstr(info->line_name));
     bad |= se_jset(root, "quantity", json_string(se_quantity_name(res->quantity)));
     bad |= se_jset(root, "line_kind", json_string(res->electrical ? "electrical" : "mechanical"));
     bad |= se_jset(root, "speed_m_s", se_jnum(res->speed_m_s));
@@ -111,6 +113,10 @@ char *se_result_json(const se_locate_result *res, const se_run_info *info, se_er
         bad |= se_jset(e, "snr_db", se_jnum(ev->snr_db));
         bad |= se_jset(e, "low_confidence", json_boolean(ev->low_confidence));
         bad |= se_jset(e, "multiple", json_boolean(ev->multiple));
+        bad |= se_jset(e, "expected",
+                       ev->expected >= 0 && (size_t)ev->expected < info->n_expected
+                           ? json_string(info->expected[ev->expected].name)
+                           : json_null());
         if (ev->multiple) {
             mo = json_array();
             if (mo == NULL)
@@ -126,6 +132,33 @@ char *se_result_json(const se_locate_result *res, const se_run_info *info, se_er
     }
     bad |= json_object_set_new(root, "events", events);
     events = NULL;
+    {
+        json_t *missing = json_array();
+        if (missing == NULL)
+            goto nomem;
+        for (i = 0; i < res->n_expected && i < info->n_expected; i++) {
+            const se_expected_event *x = &info->expected[i];
+            json_t *m;
+            if (res->expected_found[i] >= 0)
+                continue;
+            m = json_object();
+            if (m == NULL || json_array_append_new(missing, m) != 0) {
+                json_decref(missing);
+                goto nomem;
+            }
+            bad |= se_jset(m, "name", json_string(x->name));
+            bad |= se_jset(m, "kind", se_jstr(x->kind));
+            bad |= se_jset(m, "distance_m", se_jnum(x->distance_m));
+            bad |= se_jset(m, "delay_s", se_jnum(x->round_trip_s));
+            bad |= se_jset(m, "expected_reflection",
+                           x->has_reflection ? se_jnum(x->amplitude) : json_null());
+            bad |= se_jset(m, "within_record", json_boolean(x->round_trip_s <= res->record_range_s));
+        }
+        bad |= json_object_set_new(root, "missing", missing);
+        bad |= se_jset(root, "end_missing", json_boolean(res->end_missing));
+        bad |= se_jset(root, "break_event",
+                       res->break_event >= 0 ? json_integer(res->break_event + 1) : json_null());
+    }
     bad |= se_jset(root, "caution", json_string(se_caution_line(res->electrical)));
     if (bad)
         goto nomem;

@@ -40,6 +40,9 @@ void se_locate_result_free(se_locate_result *res)
     free(res->events);
     res->events = NULL;
     res->n_events = 0;
+    free(res->expected_found);
+    res->expected_found = NULL;
+    res->n_expected = 0;
 }
 
 const char *se_event_polarity(const se_event *ev)
@@ -453,9 +456,18 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
         ev->distance_uncertainty_m = z * sqrt(sd_t * sd_t + sd_v * sd_v);
         ev->multiple = 0;
         ev->multiple_of[0] = ev->multiple_of[1] = -1;
+        ev->expected = -1;
     }
     res->n_events = npeaks;
     se_label_multiples(res->events, npeaks, cfg->source_reflection, hw / rate_hz);
+    res->record_range_s = (double)(end - 1 - k0) / rate_hz;
+    res->resolution_s = hw / rate_hz;
+    res->break_event = -1;
+    if (cfg->n_expected > 0) {
+        st = se_match_expected(res, cfg->expected, cfg->n_expected, z, err);
+        if (st != SE_OK)
+            goto done;
+    }
     res->rate_hz = rate_hz;
     res->t0_s = lag0 / rate_hz;
     res->direct_amplitude = a0;
