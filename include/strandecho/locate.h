@@ -66,9 +66,13 @@ typedef struct se_event {
     int low_confidence;            /* below cfg.low_snr_db: the timing may jump to a wrong peak */
     int multiple;                  /* 1 when explained as a multiple of earlier events */
     int multiple_of[2];            /* indices of the primaries (or -1) when multiple */
+    int clipped;                   /* 1 when the echo's window touches clipped samples: unreliable */
     int expected;                  /* index of the matched expected event, -1 when unexpected (or
                                       when no line was described) */
 } se_event;
+
+/* Clipped runs remembered per result (more: every event is flagged). */
+#define SE_MAX_CLIP_RUNS 64
 
 typedef struct se_locate_result {
     se_event *events;        /* [size: n_events], sorted by delay; owned, freed by se_locate_result_free */
@@ -94,6 +98,14 @@ typedef struct se_locate_result {
      * or -1 when it is missing; owned. */
     int *expected_found;     /* [size: n_expected] */
     size_t n_expected;
+    int noise_floored;       /* 1 when the noise was below the 80 dB dynamic-range floor and the
+                                floor was used instead (noise-free or nearly noise-free records) */
+    size_t clipped_samples;  /* samples of the response in runs at its extreme value (clipping) */
+    size_t first_clipped;    /* first clipped sample (0-based), SIZE_MAX when none */
+    size_t clip_runs[SE_MAX_CLIP_RUNS][2]; /* [begin, end) of the first clipped runs */
+    size_t n_clip_runs;
+    int direct_clipped;      /* 1 when the direct arrival itself is clipped: every reflection
+                                estimate is then unreliable */
     int end_missing;         /* 1 when the line's end was expected within the record but not found */
     int break_event;         /* with the end missing: index of the first strong unexpected
                                 impedance-decrease (free-like / short-like) event before it, the

@@ -1,5 +1,6 @@
 /* strandecho CLI: `strandecho locate`, a thin layer over se_locate. */
 #include <math.h>
+#include <unistd.h>
 #include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -91,11 +92,11 @@ static int se_load_reference(const char *pulse, unsigned long pulse_channel, con
         snprintf(desc, dsize, "self (direct arrival in the response)");
         return SE_EXIT_OK;
     }
-    if (se_pulse_is_spec(pulse)) {
+    if (se_pulse_is_spec(pulse) || (strchr(pulse, ':') != NULL && access(pulse, F_OK) != 0)) {
         se_pulse_shape shape;
         size_t n;
         if (se_pulse_parse(pulse, &shape, &err) != SE_OK)
-            return se_cli_fail(SE_EXIT_USAGE, "--pulse %s: %s", pulse, err.message);
+            return se_cli_fail(SE_EXIT_USAGE, "--pulse %s: not a file, and %s", pulse, err.message);
         if (se_pulse_render(&shape, rec->rate, owned, &n, &err) != SE_OK)
             return se_cli_fail(SE_EXIT_USAGE, "--pulse %s: %s", pulse, err.message);
         cfg->reference = *owned;
@@ -347,6 +348,14 @@ int se_cmd_locate(int argc, char **argv)
         rc = se_cli_fail(se_cli_exit_code(err.code, 0), "%s: %s", path, err.message);
         goto done;
     }
+    if (res.clipped_samples > 0)
+        fprintf(stderr,
+                "strandecho: warning: %s: %zu samples of channel %lu clipped from sample %zu; "
+                "%s marked 'clipped' are unreliable\n",
+                path, res.clipped_samples, channel, res.first_clipped,
+                res.direct_clipped ? "the outgoing pulse itself is clipped, so every reflection "
+                                     "estimate is unreliable; events"
+                                   : "events");
     if (json != NULL) {
         se_run_info info;
         se_run_info_init(&info);
@@ -428,6 +437,8 @@ static void se_print_table(const se_locate_result *res, const se_recording *rec,
             snprintf(note + strlen(note), sizeof note - strlen(note), "  low confidence");
         if (ev->multiple)
             snprintf(note + strlen(note), sizeof note - strlen(note), "  multiple");
+        if (ev->clipped || res->direct_clipped)
+            snprintf(note + strlen(note), sizeof note - strlen(note), "  clipped");
         printf("%2zu  %13.3f  %14.3f  %10.3f  %-8s  %-9s  %-10s  %+10.3f  %8.1f%s\n", i + 1,
                ev->distance_m * k, ev->distance_uncertainty_m * k, ev->delay_s * 1e3,
                se_event_polarity(ev), se_event_impedance(ev), se_event_class(res, ev), ev->reflection,

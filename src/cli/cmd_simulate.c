@@ -311,9 +311,17 @@ int se_cmd_simulate(int argc, char **argv)
                                    &err) != SE_OK) {
         return se_cli_fail(se_cli_exit_code(err.code, 0), "simulate: %s", err.message);
     }
+    if (!(rec.duration_s * rec.rate_hz <= (double)((size_t)1 << 31))) {
+        rc = se_cli_fail(SE_EXIT_MEMORY,
+                         "simulate: %g s at %g Hz is %g samples, more than the limit of %zu",
+                         rec.duration_s, rec.rate_hz, rec.duration_s * rec.rate_hz,
+                         (size_t)1 << 31);
+        goto done;
+    }
     frames = se_sim_frames(&rec);
-    if (frames < 2 || frames > ((size_t)1 << 31)) {
-        rc = se_cli_fail(SE_EXIT_USAGE, "simulate: %zu samples is out of range", frames);
+    if (frames < 2) {
+        rc = se_cli_fail(SE_EXIT_USAGE, "simulate: %g s at %g Hz gives fewer than 2 samples",
+                         rec.duration_s, rec.rate_hz);
         goto done;
     }
     resp = malloc(frames * sizeof *resp);

@@ -95,6 +95,9 @@ char *se_result_json(const se_locate_result *res, const se_run_info *info, se_er
     bad |= se_jset(root, "threshold_sigma", se_jnum(res->threshold_sigma));
     bad |= se_jset(root, "false_alarms_per_record", se_jnum(info->false_alarms));
     bad |= se_jset(root, "confidence", se_jnum(info->confidence));
+    bad |= se_jset(root, "noise_floored", json_boolean(res->noise_floored));
+    bad |= se_jset(root, "clipped_samples", json_integer((json_int_t)res->clipped_samples));
+    bad |= se_jset(root, "direct_clipped", json_boolean(res->direct_clipped));
     for (i = 0; i < res->n_events; i++) {
         const se_event *ev = &res->events[i];
         json_t *e = json_object(), *mo;
@@ -112,6 +115,7 @@ char *se_result_json(const se_locate_result *res, const se_run_info *info, se_er
         bad |= se_jset(e, "reflection_uncertainty", se_jnum(ev->reflection_uncertainty));
         bad |= se_jset(e, "snr_db", se_jnum(ev->snr_db));
         bad |= se_jset(e, "low_confidence", json_boolean(ev->low_confidence));
+        bad |= se_jset(e, "clipped", json_boolean(ev->clipped || res->direct_clipped));
         bad |= se_jset(e, "multiple", json_boolean(ev->multiple));
         bad |= se_jset(e, "expected",
                        ev->expected >= 0 && (size_t)ev->expected < info->n_expected

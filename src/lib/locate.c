@@ -6,6 +6,7 @@
 #include <float.h>
 #include <math.h>
 #include <stdint.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -16,10 +17,17 @@
 #include "strandecho/distmap.h"
 #include "strandecho/xcorr.h"
 
+/* Noise floor relative to the direct arrival (80 dB): see se_locate. */
+#define SE_LOCATE_NOISE_FLOOR 1e-4
+/* A run of at least this many equal samples at the trace's extreme is clipping. */
+#define SE_CLIP_RUN 5
+
 static double se_robust_sigma(const double *x, size_t n, se_error *err, int *ok);
 static se_status se_find_direct(const double *r, size_t n, const se_locate_config *cfg,
                                 size_t ref_begin, size_t m, size_t *k0, se_error *err);
 static void se_label_multiples(se_event *ev, size_t n, double source_r, double resolution_s);
+static void se_find_clipping(const double *x, size_t n, se_locate_result *res);
+static int se_window_clipped(const se_locate_result *res, size_t start, size_t m);
 
 void se_locate_config_init(se_locate_config *cfg)
 {
@@ -82,6 +90,10 @@ se_status se_pulse_support(const double *x, size_t n, size_t *begin, size_t *end
             peak = fabs(x[i]);
     if (!(peak > 0.0))
         return se_fail(err, SE_ERR_DATA, "pulse search: the trace is all zero");
+    for (i = 1; i < n && x[i] == x[0]; i++) {
+    }
+    if (i == n)
+        return se_fail(err, SE_ERR_DATA, "pulse search: the trace is constant (%.6g)", x[0]);
     sigma = se_robust_sigma(x, n, err, &ok);
     if (!ok)
         return err ? err->code : SE_ERR_DATA;
@@ -292,6 +304,13 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
         return SE_ERR_NOMEM;
     }
     memcpy(x, response, n * sizeof *x);
+    for (i = 1; i < n && response[i] == response[0]; i++) {
+    }
+    if (i == n) {
+        st = se_fail(err, SE_ERR_DATA, "the response is constant (every sample is %.6g)", response[0]);
+        goto done;
+    }
+    se_find_clipping(response, n, res);
     st = se_to_velocity(x, n, rate_hz, cfg->quantity, 0, err);
     if (st != SE_OK)
         goto done;
@@ -300,7 +319,9 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
     if (cfg->reference_kind == SE_REF_SELF) {
         st = se_pulse_support(x, n, &ref_begin, &ref_end, err);
         if (st != SE_OK) {
-            se_fail(err, st, "self reference: %s", err ? err->message : "no direct arrival");
+            char why[SE_ERROR_MESSAGE_SIZE];
+            snprintf(why, sizeof why, "%s", err ? err->message : "no direct arrival");
+            se_fail(err, st, "self reference: %s", why);
             goto done;
         }
         m = ref_end - ref_begin;
@@ -380,10 +401,22 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
      * bound needs the pulse's own RMS bandwidth. */
     beta_crb = se_acf_rms_bandwidth(acf);
     beta = (isfinite(nz.beta) && nz.beta > 0.0) ? nz.beta : beta_crb;
-    if (!(sigma > 0.0)) /* noise-free record: keep a floor at double rounding of the peak */
-        sigma = fabs(a0) * 1e-12;
+    /* Dynamic-range floor: CLEAN subtracts each echo with the sampled reference's autocorrelation,
+     * which leaves residues near 1e-4..1e-2 of an echo on noise-free records; below 60 dB under
+     * the outgoing pulse (80 dB) the floor takes over from the measured noise. */
+    if (!(sigma >= SE_LOCATE_NOISE_FLOOR * fabs(a0))) {
+        sigma = SE_LOCATE_NOISE_FLOOR * fabs(a0);
+        res->noise_floored = 1;
+    }
     kthr = se_rice_k((double)(end - start), beta, cfg->false_alarms);
     thr = kthr * sigma;
+    if (fabs(a0) < 2.0 * thr) {
+        st = se_fail(err, SE_ERR_NOTFOUND,
+                     "the outgoing pulse does not stand above the noise of the matched filter (peak "
+                     "%.3g, threshold %.3g): wrong channel or wrong reference?",
+                     fabs(a0), thr);
+        goto done;
+    }
 
     /* Dead zone: the outgoing pulse itself, and as far as its sidelobes stand above half the
      * threshold. */
@@ -457,6 +490,7 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
         ev->multiple = 0;
         ev->multiple_of[0] = ev->multiple_of[1] = -1;
         ev->expected = -1;
+        ev->clipped = se_window_clipped(res, (size_t)floor(peaks[i].lag), m);
     }
     res->n_events = npeaks;
     se_label_multiples(res->events, npeaks, cfg->source_reflection, hw / rate_hz);
@@ -484,6 +518,7 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
     res->resolution_m = 0.5 * v0 * res->resolution_s;
     res->rms_bandwidth_hz = beta_crb / (2.0 * SE_PI) * rate_hz;
     res->reference_length = m;
+    res->direct_clipped = se_window_clipped(res, k0, m);
     res->speed_m_s = v0;
     res->electrical = se_quantity_is_electrical(cfg->quantity);
     res->quantity = cfg->quantity;
@@ -538,6 +573,25 @@ static void se_label_multiples(se_event *ev, size_t n, double source_r, double r
                         break;
                     }
                 }
+                /* higher orders of a between-reflector multiple: one more bounce between i and j */
+                if (j > i) {
+                    size_t m2;
+                    for (m2 = 0; m2 < e && !ev[e].multiple; m2++) {
+                        if (!ev[m2].multiple || ev[m2].multiple_of[0] != (int)i ||
+                            ev[m2].multiple_of[1] != (int)j)
+                            continue;
+                        tp = ev[m2].delay_s + (ev[j].delay_s - ev[i].delay_s);
+                        pred = ev[m2].reflection * (-ri * rj);
+                        if (fabs(te - tp) < tol && pred * ae > 0.0 && fabs(ae) < 3.0 * fabs(pred) &&
+                            fabs(ae) > fabs(pred) / 3.0) {
+                            ev[e].multiple = 1;
+                            ev[e].multiple_of[0] = (int)i;
+                            ev[e].multiple_of[1] = (int)j;
+                        }
+                    }
+                    if (ev[e].multiple)
+                        break;
+                }
                 /* between reflectors i < j */
                 if (j > i && fabs(ri) < 1.0) {
                     tp = 2.0 * ev[j].delay_s - ev[i].delay_s;
@@ -553,4 +607,54 @@ static void se_label_multiples(se_event *ev, size_t n, double source_r, double r
             }
         }
     }
+}
+
+/* Runs of SE_CLIP_RUN or more equal samples at the trace's maximum or minimum: a sensor or
+ * converter at full scale. Records the count, the first clipped sample and up to
+ * SE_MAX_CLIP_RUNS runs for se_window_clipped. */
+static void se_find_clipping(const double *x, size_t n, se_locate_result *res)
+{
+    double vmax = x[0], vmin = x[0];
+    size_t i, j;
+    res->clipped_samples = 0;
+    res->first_clipped = SIZE_MAX;
+    res->n_clip_runs = 0;
+    for (i = 1; i < n; i++) {
+        if (x[i] > vmax)
+            vmax = x[i];
+        if (x[i] < vmin)
+            vmin = x[i];
+    }
+    for (i = 0; i < n; i = j) {
+        j = i + 1;
+        if (x[i] != vmax && x[i] != vmin)
+            continue;
+        while (j < n && x[j] == x[i])
+            j++;
+        if (j - i >= SE_CLIP_RUN) {
+            if (res->first_clipped == SIZE_MAX)
+                res->first_clipped = i;
+            res->clipped_samples += j - i;
+            if (res->n_clip_runs < SE_MAX_CLIP_RUNS) {
+                res->clip_runs[res->n_clip_runs][0] = i;
+                res->clip_runs[res->n_clip_runs][1] = j;
+                res->n_clip_runs++;
+            }
+        }
+    }
+}
+
+/* 1 when a correlation window [start, start + m) of the response touches a clipped run (or when
+ * more runs were clipped than recorded: then every event is suspect). */
+static int se_window_clipped(const se_locate_result *res, size_t start, size_t m)
+{
+    size_t k;
+    if (res->clipped_samples == 0)
+        return 0;
+    if (res->n_clip_runs == SE_MAX_CLIP_RUNS)
+        return 1;
+    for (k = 0; k < res->n_clip_runs; k++)
+        if (res->clip_runs[k][0] < start + m && res->clip_runs[k][1] > start)
+            return 1;
+    return 0;
 }
