@@ -456,7 +456,8 @@ static void se_print_table(const se_locate_result *res, const se_recording *rec,
             printf("MISSING: %s at %.3f %s (expected %+.3f at the sensor)\n", x->name,
                    x->distance_m * k, u, x->amplitude);
         else
-            printf("MISSING: %s at %.3f %s\n", x->name, x->distance_m * k, u);
+            printf("not seen: %s at %.3f %s (no coefficient given in the line file)\n", x->name,
+                   x->distance_m * k, u);
     }
     if (res->end_missing && res->break_event >= 0) {
         const se_event *b = &res->events[res->break_event];

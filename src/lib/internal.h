@@ -30,4 +30,31 @@ int se_mul_size(size_t n, size_t size, size_t *out);
 /* strdup into malloc'd memory; NULL on failure (err filled). */
 char *se_strdup(const char *s, se_error *err);
 
+/* The locator's last stage, shared by the whole-record pipeline (locate.c) and any streaming
+ * one: from detected peaks of the matched-filter output to classified events with distances,
+ * uncertainties, multiples and matches, and every result field that describes the record.
+ * Lags are indices into the correlation r[k] = sum x[k+j] s[j] / E_s of the response. */
+struct se_locate_config;
+struct se_distmap;
+struct se_locate_result;
+struct se_peak;
+typedef struct se_locate_stage {
+    const struct se_locate_config *cfg;
+    const struct se_distmap *map; /* delay -> distance (never NULL here) */
+    double rate_hz;
+    double lag0;                  /* refined lag of the direct arrival */
+    double a0;                    /* its correlation amplitude */
+    size_t k0;                    /* its integer lag */
+    size_t m;                     /* reference length, samples */
+    size_t dead;                  /* dead zone, lags after k0 */
+    size_t end;                   /* one past the last lag searched */
+    double sigma;                 /* noise of r (r units), floored */
+    double kthr;                  /* threshold in sigmas */
+    double thr;                   /* threshold (r units) */
+    double beta_crb;              /* RMS bandwidth of the reference, rad/sample */
+    double mainlobe_half_width;   /* of the reference autocorrelation, samples */
+} se_locate_stage;
+se_status se_locate_events(const se_locate_stage *sg, const struct se_peak *peaks, size_t npeaks,
+                           struct se_locate_result *res, se_error *err);
+
 #endif /* SE_INTERNAL_H */

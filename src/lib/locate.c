@@ -256,7 +256,7 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
     se_acf *acf = NULL;
     se_peak *peaks = NULL;
     size_t npeaks = 0, m, ref_begin = 0, ref_end = 0, k0 = 0, i, dead, start, end;
-    double lag0, a0, sigma, beta, kthr, thr, z, hw, one_plus_rs, v0;
+    double lag0, a0, sigma, beta, kthr, thr, one_plus_rs;
     se_noise nz;
     se_detect_config dc;
     se_peak direct;
@@ -448,80 +448,27 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
         goto done;
 
     /* Events. */
-    hw = se_acf_mainlobe_half_width(acf);
-    z = gsl_cdf_ugaussian_Pinv(0.5 + 0.5 * cfg->confidence);
-    st = se_distmap_speed(map, 0.0, &v0, err);
-    if (st != SE_OK)
-        goto done;
-    if (npeaks > 0) {
-        res->events = se_calloc(npeaks, sizeof *res->events, "events", err);
-        if (res->events == NULL) {
-            st = SE_ERR_NOMEM;
-            goto done;
-        }
-    }
-    for (i = 0; i < npeaks; i++) {
-        se_event *ev = &res->events[i];
-        double lagrel = peaks[i].lag - lag0;
-        double snr = fabs(peaks[i].amplitude) / sigma;
-        double sl = 1.0 / (snr * beta_crb), sl0 = sigma / (fabs(a0) * beta_crb);
-        double sd_t, sd_v, refl_d, vloc;
-        ev->lag_samples = lagrel;
-        ev->delay_s = lagrel / rate_hz;
-        ev->reflection = peaks[i].amplitude / a0 / one_plus_rs;
-        ev->reflection_uncertainty = sigma / fabs(a0) / fabs(one_plus_rs);
-        ev->polarity = ev->reflection >= 0.0 ? 1 : -1;
-        refl_d = ev->reflection * (double)se_quantity_sign(cfg->quantity);
-        ev->impedance_increase = refl_d < 0.0;
-        ev->snr_db = 20.0 * log10(snr);
-        ev->low_confidence = ev->snr_db < cfg->low_snr_db;
-        if (ev->low_confidence && sl < hw) /* below the threshold region the bound is not met */
-            sl = hw;
-        ev->delay_uncertainty_s = sqrt(sl * sl + sl0 * sl0) / rate_hz;
-        st = se_distmap_distance(map, ev->delay_s, &ev->distance_m, err);
-        if (st == SE_OK)
-            st = se_distmap_speed(map, ev->distance_m, &vloc, err);
-        if (st == SE_OK)
-            st = se_distmap_distance_sigma(map, ev->delay_s, &sd_v, err);
-        if (st != SE_OK)
-            goto done;
-        sd_t = 0.5 * vloc * ev->delay_uncertainty_s;
-        ev->distance_uncertainty_m = z * sqrt(sd_t * sd_t + sd_v * sd_v);
-        ev->multiple = 0;
-        ev->multiple_of[0] = ev->multiple_of[1] = -1;
-        ev->expected = -1;
-        ev->clipped = se_window_clipped(res, (size_t)floor(peaks[i].lag), m);
-    }
-    res->n_events = npeaks;
-    se_label_multiples(res->events, npeaks, cfg->source_reflection, hw / rate_hz);
-    res->record_range_s = (double)(end - 1 - k0) / rate_hz;
-    res->resolution_s = hw / rate_hz;
-    res->break_event = -1;
-    if (cfg->n_expected > 0) {
-        st = se_match_expected(res, cfg->expected, cfg->n_expected, z, err);
+    {
+        se_locate_stage sg;
+        memset(&sg, 0, sizeof sg);
+        sg.cfg = cfg;
+        sg.map = map;
+        sg.rate_hz = rate_hz;
+        sg.lag0 = lag0;
+        sg.a0 = a0;
+        sg.k0 = k0;
+        sg.m = m;
+        sg.dead = dead;
+        sg.end = end;
+        sg.sigma = sigma;
+        sg.kthr = kthr;
+        sg.thr = thr;
+        sg.beta_crb = beta_crb;
+        sg.mainlobe_half_width = se_acf_mainlobe_half_width(acf);
+        st = se_locate_events(&sg, peaks, npeaks, res, err);
         if (st != SE_OK)
             goto done;
     }
-    res->rate_hz = rate_hz;
-    res->t0_s = lag0 / rate_hz;
-    res->direct_amplitude = a0;
-    res->noise_level = sigma / fabs(a0) / fabs(one_plus_rs);
-    res->threshold = thr / fabs(a0) / fabs(one_plus_rs);
-    res->threshold_sigma = kthr;
-    res->dead_zone_s = (double)dead / rate_hz;
-    st = se_distmap_distance(map, res->dead_zone_s, &res->dead_zone_m, err);
-    if (st == SE_OK)
-        st = se_distmap_distance(map, (double)(end - 1 - k0) / rate_hz, &res->record_range_m, err);
-    if (st != SE_OK)
-        goto done;
-    res->resolution_s = hw / rate_hz;
-    res->resolution_m = 0.5 * v0 * res->resolution_s;
-    res->rms_bandwidth_hz = beta_crb / (2.0 * SE_PI) * rate_hz;
-    res->reference_length = m;
-    res->direct_clipped = se_window_clipped(res, k0, m);
-    res->speed_m_s = v0;
-    res->electrical = se_quantity_is_electrical(cfg->quantity);
-    res->quantity = cfg->quantity;
 
 done:
     free(peaks);
@@ -549,14 +496,17 @@ static void se_label_multiples(se_event *ev, size_t n, double source_r, double r
     for (e = 0; e < n; e++) {
         double te = ev[e].delay_s, ae = ev[e].reflection;
         double tol = 3.0 * ev[e].delay_uncertainty_s + 0.5 * resolution_s;
-        for (i = 0; i < e && !ev[e].multiple; i++) {
-            if (ev[i].multiple)
-                continue;
-            if (fabs(ev[i].reflection) > 0.9 && te > ev[i].delay_s + resolution_s) {
+        /* first: past a full reflection nothing real is seen */
+        for (i = 0; i < e; i++)
+            if (!ev[i].multiple && fabs(ev[i].reflection) > 0.9 &&
+                te > ev[i].delay_s + resolution_s) {
                 ev[e].multiple = 1;
                 ev[e].multiple_of[0] = (int)i;
                 break;
             }
+        for (i = 0; i < e && !ev[e].multiple; i++) {
+            if (ev[i].multiple)
+                continue;
             for (j = i; j < e; j++) {
                 double ri = ev[i].reflection, rj = ev[j].reflection, pred, tp;
                 if (ev[j].multiple)
@@ -573,20 +523,18 @@ static void se_label_multiples(se_event *ev, size_t n, double source_r, double r
                         break;
                     }
                 }
-                /* higher orders of a between-reflector multiple: one more bounce between i and j */
-                if (j > i) {
-                    size_t m2;
-                    for (m2 = 0; m2 < e && !ev[e].multiple; m2++) {
-                        if (!ev[m2].multiple || ev[m2].multiple_of[0] != (int)i ||
-                            ev[m2].multiple_of[1] != (int)j)
-                            continue;
-                        tp = ev[m2].delay_s + (ev[j].delay_s - ev[i].delay_s);
-                        pred = ev[m2].reflection * (-ri * rj);
+                /* peg-leg: an event k at or beyond j (primary or multiple) with one more bounce
+                 * between i and j: time t_k + (t_j - t_i), about a_k (-r_i r_j) / (1 - r_i^2) */
+                if (j > i && fabs(ri) < 1.0) {
+                    size_t k2;
+                    for (k2 = j; k2 < e && !ev[e].multiple; k2++) {
+                        tp = ev[k2].delay_s + (ev[j].delay_s - ev[i].delay_s);
+                        pred = ev[k2].reflection * (-ri * rj) / (1.0 - ri * ri);
                         if (fabs(te - tp) < tol && pred * ae > 0.0 && fabs(ae) < 3.0 * fabs(pred) &&
                             fabs(ae) > fabs(pred) / 3.0) {
                             ev[e].multiple = 1;
                             ev[e].multiple_of[0] = (int)i;
-                            ev[e].multiple_of[1] = (int)j;
+                            ev[e].multiple_of[1] = (int)k2;
                         }
                     }
                     if (ev[e].multiple)
@@ -657,4 +605,92 @@ static int se_window_clipped(const se_locate_result *res, size_t start, size_t m
         if (res->clip_runs[k][0] < start + m && res->clip_runs[k][1] > start)
             return 1;
     return 0;
+}
+
+se_status se_locate_events(const se_locate_stage *sg, const se_peak *peaks, size_t npeaks,
+                           se_locate_result *res, se_error *err)
+{
+    const se_locate_config *cfg = sg->cfg;
+    const se_distmap *map = sg->map;
+    const double rate_hz = sg->rate_hz, lag0 = sg->lag0, a0 = sg->a0, sigma = sg->sigma;
+    const double beta_crb = sg->beta_crb, hw = sg->mainlobe_half_width, thr = sg->thr;
+    const double kthr = sg->kthr, one_plus_rs = 1.0 + cfg->source_reflection;
+    const size_t k0 = sg->k0, m = sg->m, dead = sg->dead, end = sg->end;
+    double z, v0;
+    size_t i;
+    se_status st;
+
+    z = gsl_cdf_ugaussian_Pinv(0.5 + 0.5 * cfg->confidence);
+    st = se_distmap_speed(map, 0.0, &v0, err);
+    if (st != SE_OK)
+        return st;
+    if (npeaks > 0) {
+        res->events = se_calloc(npeaks, sizeof *res->events, "events", err);
+        if (res->events == NULL)
+            return SE_ERR_NOMEM;
+    }
+    for (i = 0; i < npeaks; i++) {
+        se_event *ev = &res->events[i];
+        double lagrel = peaks[i].lag - lag0;
+        double snr = fabs(peaks[i].amplitude) / sigma;
+        double sl = 1.0 / (snr * beta_crb), sl0 = sigma / (fabs(a0) * beta_crb);
+        double sd_t, sd_v, refl_d, vloc;
+        ev->lag_samples = lagrel;
+        ev->delay_s = lagrel / rate_hz;
+        ev->reflection = peaks[i].amplitude / a0 / one_plus_rs;
+        ev->reflection_uncertainty = sigma / fabs(a0) / fabs(one_plus_rs);
+        ev->polarity = ev->reflection >= 0.0 ? 1 : -1;
+        refl_d = ev->reflection * (double)se_quantity_sign(cfg->quantity);
+        ev->impedance_increase = refl_d < 0.0;
+        ev->snr_db = 20.0 * log10(snr);
+        ev->low_confidence = ev->snr_db < cfg->low_snr_db;
+        if (ev->low_confidence && sl < hw) /* below the threshold region the bound is not met */
+            sl = hw;
+        ev->delay_uncertainty_s = sqrt(sl * sl + sl0 * sl0) / rate_hz;
+        st = se_distmap_distance(map, ev->delay_s, &ev->distance_m, err);
+        if (st == SE_OK)
+            st = se_distmap_speed(map, ev->distance_m, &vloc, err);
+        if (st == SE_OK)
+            st = se_distmap_distance_sigma(map, ev->delay_s, &sd_v, err);
+        if (st != SE_OK)
+            return st;
+        sd_t = 0.5 * vloc * ev->delay_uncertainty_s;
+        ev->distance_uncertainty_m = z * sqrt(sd_t * sd_t + sd_v * sd_v);
+        ev->multiple = 0;
+        ev->multiple_of[0] = ev->multiple_of[1] = -1;
+        ev->expected = -1;
+        ev->clipped = se_window_clipped(res, (size_t)floor(peaks[i].lag), m);
+    }
+    res->n_events = npeaks;
+    se_label_multiples(res->events, npeaks, cfg->source_reflection, hw / rate_hz);
+    res->record_range_s = (double)(end - 1 - k0) / rate_hz;
+    res->resolution_s = hw / rate_hz;
+    res->break_event = -1;
+    if (cfg->n_expected > 0) {
+        st = se_match_expected(res, cfg->expected, cfg->n_expected, z, err);
+        if (st != SE_OK)
+            return st;
+    }
+    res->rate_hz = rate_hz;
+    res->t0_s = lag0 / rate_hz;
+    res->direct_amplitude = a0;
+    res->noise_level = sigma / fabs(a0) / fabs(one_plus_rs);
+    res->threshold = thr / fabs(a0) / fabs(one_plus_rs);
+    res->threshold_sigma = kthr;
+    res->dead_zone_s = (double)dead / rate_hz;
+    st = se_distmap_distance(map, res->dead_zone_s, &res->dead_zone_m, err);
+    if (st == SE_OK)
+        st = se_distmap_distance(map, (double)(end - 1 - k0) / rate_hz, &res->record_range_m, err);
+    if (st != SE_OK)
+        return st;
+    res->resolution_s = hw / rate_hz;
+    res->resolution_m = 0.5 * v0 * res->resolution_s;
+    res->rms_bandwidth_hz = beta_crb / (2.0 * SE_PI) * rate_hz;
+    res->reference_length = m;
+    res->direct_clipped = se_window_clipped(res, k0, m);
+    res->speed_m_s = v0;
+    res->electrical = se_quantity_is_electrical(cfg->quantity);
+    res->quantity = cfg->quantity;
+
+    return SE_OK;
 }
