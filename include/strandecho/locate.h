@@ -45,6 +45,7 @@ typedef struct se_locate_config {
      * events are matched to them within their uncertainties. */
     const struct se_expected_event *expected;
     size_t n_expected;
+    int keep_trace;             /* 1: keep the matched-filter output in se_locate_result.trace */
 } se_locate_config;
 
 /* Defaults: velocity, speed 0 (must be set), no speed uncertainty, 0.01 false alarms per record,
@@ -110,6 +111,11 @@ typedef struct se_locate_result {
     int break_event;         /* with the end missing: index of the first strong unexpected
                                 impedance-decrease (free-like / short-like) event before it, the
                                 likely break or open fault; -1 otherwise */
+    double *trace;           /* with cfg.keep_trace: the full-record matched-filter output
+                                [size: trace_length = n], in reflection units (divided by the direct
+                                amplitude and 1 + r_s, the scale of threshold and reflection);
+                                sample i lies at delay i / rate_hz - t0_s; owned; else NULL */
+    size_t trace_length;
 } se_locate_result;
 
 /* Locate reflections in response[size: n] sampled at rate_hz. Fills res (caller frees with

@@ -51,6 +51,9 @@ void se_locate_result_free(se_locate_result *res)
     free(res->expected_found);
     res->expected_found = NULL;
     res->n_expected = 0;
+    free(res->trace);
+    res->trace = NULL;
+    res->trace_length = 0;
 }
 
 const char *se_event_polarity(const se_event *ev)
@@ -468,6 +471,15 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
         st = se_locate_events(&sg, peaks, npeaks, res, err);
         if (st != SE_OK)
             goto done;
+    }
+    if (cfg->keep_trace) {
+        /* hand the correlation over, scaled to reflection units like res->threshold */
+        double g = 1.0 / (a0 * one_plus_rs);
+        for (i = 0; i < n; i++)
+            r[i] *= g;
+        res->trace = r;
+        res->trace_length = n;
+        r = NULL;
     }
 
 done:
