@@ -1,0 +1,565 @@
+/* strandecho: model-based least squares of overlapping echoes (see fitecho.h). */
+#include "strandecho/fitecho.h"
+
+#include <fftw3.h>
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include <gsl/gsl_blas.h>
+#include <gsl/gsl_errno.h>
+#include <gsl/gsl_matrix.h>
+#include <gsl/gsl_multifit_nlinear.h>
+#include <gsl/gsl_vector.h>
+
+#include "internal.h"
+
+#define SE_FIT_OVERSAMPLE 16
+#define SE_FIT_GRID_LIMIT ((size_t)1 << 22)
+#define SE_FIT_MAX_ITER 200
+
+struct se_echo_model {
+    size_t m;      /* pulse length */
+    size_t period; /* P: the interpolant is P-periodic; P >= 4 m */
+    size_t over;   /* grid points per sample U */
+    double *val;   /* s(i/U), i = 0..P U - 1 */
+    double *der;   /* s'(i/U) per sample */
+    double *raw;   /* the samples themselves [size: m] */
+    double energy; /* sum s^2 */
+};
+
+/* What one least-squares problem needs. */
+typedef struct se_fit_problem {
+    const se_echo_model *mdl;
+    const double *x;   /* x + begin */
+    size_t nwin;       /* window length N */
+    double begin;      /* first sample of the window */
+} se_fit_problem;
+
+/* A candidate model: K echoes and its score. */
+typedef struct se_fit_state {
+    se_echo *e;  /* [size: k] */
+    size_t k;
+    double rss;
+    double bic;
+    int ok;
+} se_fit_state;
+
+static int se_fit_f(const gsl_vector *p, void *data, gsl_vector *f);
+static int se_fit_df(const gsl_vector *p, void *data, gsl_matrix *J);
+static int se_fit_run(const se_fit_problem *pr, const se_echo *init, size_t k, double sigma,
+                      double min_sep, se_fit_state *out, se_error *err);
+static double se_fit_bic(double rss, size_t n, size_t k, double sigma);
+static int se_echo_cmp(const void *a, const void *b);
+static void se_state_free(se_fit_state *s);
+
+se_echo_model *se_echo_model_create(const double *pulse, size_t m, se_error *err)
+{
+    se_echo_model *mdl;
+    size_t P = 64, U = SE_FIT_OVERSAMPLE, F, i, nb, nf;
+    double *tin = NULL, *tout = NULL, energy = 0.0;
+    fftw_complex *spec = NULL, *fspec = NULL;
+    fftw_plan pf = NULL, pg = NULL;
+
+    if (pulse == NULL || m < 2) {
+        se_fail(err, SE_ERR_ARG, "echo model: the pulse has fewer than 2 samples");
+        return NULL;
+    }
+    for (i = 0; i < m; i++) {
+        if (!isfinite(pulse[i])) {
+            se_fail(err, SE_ERR_DATA, "echo model: pulse sample %zu is not finite", i);
+            return NULL;
+        }
+        energy += pulse[i] * pulse[i];
+    }
+    if (!(energy > 0.0)) {
+        se_fail(err, SE_ERR_DATA, "echo model: the pulse has zero energy");
+        return NULL;
+    }
+    while (P < 4 * m) {
+        if (P > SE_FIT_GRID_LIMIT) {
+            se_fail(err, SE_ERR_ARG, "echo model: pulse of %zu samples is too long", m);
+            return NULL;
+        }
+        P *= 2;
+    }
+    while (U > 1 && P * U > SE_FIT_GRID_LIMIT)
+        U /= 2;
+    F = P * U;
+    mdl = se_calloc(1, sizeof *mdl, "echo model", err);
+    if (mdl == NULL)
+        return NULL;
+    mdl->m = m;
+    mdl->period = P;
+    mdl->over = U;
+    mdl->energy = energy;
+    mdl->val = se_calloc(F, sizeof *mdl->val, "echo model table", err);
+    mdl->der = se_calloc(F, sizeof *mdl->der, "echo model table", err);
+    mdl->raw = se_calloc(m, sizeof *mdl->raw, "echo model pulse", err);
+    tin = fftw_malloc(P * sizeof *tin);
+    tout = fftw_malloc(F * sizeof *tout);
+    spec = fftw_malloc((P / 2 + 1) * sizeof *spec);
+    fspec = fftw_malloc((F / 2 + 1) * sizeof *fspec);
+    if (mdl->val == NULL || mdl->der == NULL || mdl->raw == NULL || tin == NULL || tout == NULL ||
+        spec == NULL || fspec == NULL) {
+        se_fail(err, SE_ERR_NOMEM, "echo model: cannot allocate the %zu-point tables", F);
+        goto fail;
+    }
+    memcpy(mdl->raw, pulse, m * sizeof *pulse);
+    pf = fftw_plan_dft_r2c_1d((int)P, tin, spec, FFTW_ESTIMATE);
+    pg = fftw_plan_dft_c2r_1d((int)F, fspec, tout, FFTW_ESTIMATE);
+    if (pf == NULL || pg == NULL) {
+        se_fail(err, SE_ERR_NOMEM, "echo model: FFT planning failed");
+        goto fail;
+    }
+    memset(tin, 0, P * sizeof *tin);
+    memcpy(tin, pulse, m * sizeof *pulse);
+    fftw_execute(pf);
+    nb = P / 2 + 1;
+    nf = F / 2 + 1;
+    /* s(t) = (1/P) sum_k S_k e^{2 pi i k t / P}: zero-padding the spectrum to F = P U points
+     * evaluates it at t = i/U; the Nyquist bin is split between +-P/2 (so the interpolant is
+     * real). ds/dt: multiply S_k by i 2 pi k / P (the split Nyquist pair cancels). */
+    for (i = 0; i < 2; i++) {
+        size_t k;
+        memset(fspec, 0, nf * sizeof *fspec);
+        for (k = 0; k < nb; k++) {
+            double re = spec[k][0] / (double)P, im = spec[k][1] / (double)P;
+            if (k == P / 2 && U > 1) {
+                re *= 0.5;
+                im *= 0.5;
+                if (i == 1)
+                    re = im = 0.0;
+            }
+            if (i == 0) {
+                fspec[k][0] = re;
+                fspec[k][1] = im;
+            } else {
+                double w = 2.0 * SE_PI * (double)k / (double)P;
+                fspec[k][0] = -w * im;
+                fspec[k][1] = w * re;
+            }
+        }
+        if (U == 1 && i == 1) {
+            fspec[P / 2][0] = fspec[P / 2][1] = 0.0;
+        }
+        fftw_execute(pg);
+        memcpy(i == 0 ? mdl->val : mdl->der, tout, F * sizeof *tout);
+    }
+    fftw_destroy_plan(pf);
+    fftw_destroy_plan(pg);
+    fftw_free(tin);
+    fftw_free(tout);
+    fftw_free(spec);
+    fftw_free(fspec);
+    return mdl;
+fail:
+    if (pf != NULL)
+        fftw_destroy_plan(pf);
+    if (pg != NULL)
+        fftw_destroy_plan(pg);
+    fftw_free(tin);
+    fftw_free(tout);
+    fftw_free(spec);
+    fftw_free(fspec);
+    se_echo_model_destroy(mdl);
+    return NULL;
+}
+
+void se_echo_model_destroy(se_echo_model *mdl)
+{
+    if (mdl == NULL)
+        return;
+    free(mdl->val);
+    free(mdl->der);
+    free(mdl->raw);
+    free(mdl);
+}
+
+size_t se_echo_model_length(const se_echo_model *mdl)
+{
+    return mdl != NULL ? mdl->m : 0;
+}
+
+double se_echo_model_value(const se_echo_model *mdl, double t, double *deriv)
+{
+    double P = (double)mdl->period, margin = 0.5 * (P - (double)mdl->m), g, u, h;
+    double v0, v1, d0, d1, u2, u3;
+    size_t i0, i1, F = mdl->period * mdl->over;
+
+    if (deriv != NULL)
+        *deriv = 0.0;
+    if (!(t >= -margin && t <= (double)mdl->m - 1.0 + margin))
+        return 0.0;
+    if (t < 0.0)
+        t += P;
+    g = t * (double)mdl->over;
+    i0 = (size_t)floor(g);
+    u = g - (double)i0;
+    if (i0 >= F)
+        i0 -= F;
+    i1 = i0 + 1 < F ? i0 + 1 : 0;
+    h = 1.0 / (double)mdl->over;
+    v0 = mdl->val[i0];
+    v1 = mdl->val[i1];
+    d0 = mdl->der[i0] * h;
+    d1 = mdl->der[i1] * h;
+    u2 = u * u;
+    u3 = u2 * u;
+    /* cubic Hermite on the grid */
+    if (deriv != NULL)
+        *deriv = ((6.0 * u2 - 6.0 * u) * v0 + (3.0 * u2 - 4.0 * u + 1.0) * d0 +
+                  (-6.0 * u2 + 6.0 * u) * v1 + (3.0 * u2 - 2.0 * u) * d1) /
+                 h;
+    return (2.0 * u3 - 3.0 * u2 + 1.0) * v0 + (u3 - 2.0 * u2 + u) * d0 + (-2.0 * u3 + 3.0 * u2) * v1 +
+           (u3 - u2) * d1;
+}
+
+void se_fitecho_config_init(se_fitecho_config *cfg)
+{
+    memset(cfg, 0, sizeof *cfg);
+}
+
+/* f_i = x_i - sum_k a_k s(i - tau_k) */
+static int se_fit_f(const gsl_vector *p, void *data, gsl_vector *f)
+{
+    const se_fit_problem *pr = data;
+    size_t k, i, K = p->size / 2;
+    for (i = 0; i < pr->nwin; i++)
+        gsl_vector_set(f, i, pr->x[i]);
+    for (k = 0; k < K; k++) {
+        double a = gsl_vector_get(p, 2 * k), tau = gsl_vector_get(p, 2 * k + 1);
+        double t0 = pr->begin - tau;
+        for (i = 0; i < pr->nwin; i++) {
+            double t = t0 + (double)i;
+            if (t < -2.0 || t > (double)pr->mdl->m + 1.0)
+                continue;
+            gsl_vector_set(f, i, gsl_vector_get(f, i) - a * se_echo_model_value(pr->mdl, t, NULL));
+        }
+    }
+    return GSL_SUCCESS;
+}
+
+/* df/da = -s(i - tau), df/dtau = a s'(i - tau) */
+static int se_fit_df(const gsl_vector *p, void *data, gsl_matrix *J)
+{
+    const se_fit_problem *pr = data;
+    size_t k, i, K = p->size / 2;
+    gsl_matrix_set_zero(J);
+    for (k = 0; k < K; k++) {
+        double a = gsl_vector_get(p, 2 * k), tau = gsl_vector_get(p, 2 * k + 1);
+        double t0 = pr->begin - tau;
+        for (i = 0; i < pr->nwin; i++) {
+            double t = t0 + (double)i, d, v;
+            if (t < -2.0 || t > (double)pr->mdl->m + 1.0)
+                continue;
+            v = se_echo_model_value(pr->mdl, t, &d);
+            gsl_matrix_set(J, i, 2 * k, -v);
+            gsl_matrix_set(J, i, 2 * k + 1, a * d);
+        }
+    }
+    return GSL_SUCCESS;
+}
+
+static double se_fit_bic(double rss, size_t n, size_t k, double sigma)
+{
+    double pen = 2.0 * (double)k * log((double)n);
+    if (sigma > 0.0)
+        return rss / (sigma * sigma) + pen;
+    return (double)n * log(fmax(rss, 1e-300) / (double)n) + pen;
+}
+
+static int se_echo_cmp(const void *a, const void *b)
+{
+    double x = ((const se_echo *)a)->lag, y = ((const se_echo *)b)->lag;
+    return (x > y) - (x < y);
+}
+
+static void se_state_free(se_fit_state *s)
+{
+    free(s->e);
+    s->e = NULL;
+    s->k = 0;
+}
+
+/* One Levenberg-Marquardt fit of k echoes from init. out->ok = 0 when the fit failed, ran out
+ * of the window or merged two echoes. Returns 0, or -1 on allocation failure (err filled). */
+static int se_fit_run(const se_fit_problem *pr, const se_echo *init, size_t k, double sigma,
+                      double min_sep, se_fit_state *out, se_error *err)
+{
+    const gsl_multifit_nlinear_type *T = gsl_multifit_nlinear_trust;
+    gsl_multifit_nlinear_parameters par = gsl_multifit_nlinear_default_parameters();
+    gsl_multifit_nlinear_fdf fdf;
+    gsl_multifit_nlinear_workspace *w = NULL;
+    gsl_vector *p0 = NULL;
+    gsl_matrix *cov = NULL;
+    size_t i, np = 2 * k;
+    int info = 0, status;
+    double rss, s2;
+
+    memset(out, 0, sizeof *out);
+    if (pr->nwin < 2 * np)
+        return 0;
+    out->e = se_calloc(k, sizeof *out->e, "fitted echoes", err);
+    p0 = gsl_vector_alloc(np);
+    cov = gsl_matrix_alloc(np, np);
+    w = gsl_multifit_nlinear_alloc(T, &par, pr->nwin, np);
+    if (out->e == NULL || p0 == NULL || cov == NULL || w == NULL) {
+        gsl_vector_free(p0);
+        gsl_matrix_free(cov);
+        if (w != NULL)
+            gsl_multifit_nlinear_free(w);
+        se_state_free(out);
+        se_fail(err, SE_ERR_NOMEM, "echo fit: cannot allocate the %zu x %zu problem", pr->nwin, np);
+        return -1;
+    }
+    for (i = 0; i < k; i++) {
+        gsl_vector_set(p0, 2 * i, init[i].amplitude);
+        gsl_vector_set(p0, 2 * i + 1, init[i].lag);
+    }
+    memset(&fdf, 0, sizeof fdf);
+    fdf.f = se_fit_f;
+    fdf.df = se_fit_df;
+    fdf.n = pr->nwin;
+    fdf.p = np;
+    fdf.params = (void *)pr;
+    status = gsl_multifit_nlinear_init(p0, &fdf, w);
+    if (status == GSL_SUCCESS)
+        status = gsl_multifit_nlinear_driver(SE_FIT_MAX_ITER, 1e-10, 1e-10, 0.0, NULL, NULL, &info, w);
+    if (status == GSL_SUCCESS || status == GSL_EMAXITER) {
+        gsl_vector *f = gsl_multifit_nlinear_residual(w);
+        gsl_vector *p = gsl_multifit_nlinear_position(w);
+        gsl_matrix *J = gsl_multifit_nlinear_jac(w);
+        gsl_blas_ddot(f, f, &rss);
+        s2 = sigma > 0.0 ? sigma * sigma
+                         : (pr->nwin > np ? rss / (double)(pr->nwin - np) : rss);
+        out->ok = gsl_multifit_nlinear_covar(J, 0.0, cov) == GSL_SUCCESS && isfinite(rss);
+        for (i = 0; i < k && out->ok; i++) {
+            double va = gsl_matrix_get(cov, 2 * i, 2 * i) * s2;
+            double vt = gsl_matrix_get(cov, 2 * i + 1, 2 * i + 1) * s2;
+            double c = gsl_matrix_get(cov, 2 * i, 2 * i + 1) * s2;
+            se_echo *e = &out->e[i];
+            e->amplitude = gsl_vector_get(p, 2 * i);
+            e->lag = gsl_vector_get(p, 2 * i + 1);
+            e->amplitude_sd = sqrt(fmax(va, 0.0));
+            e->lag_sd = sqrt(fmax(vt, 0.0));
+            e->corr = (va > 0.0 && vt > 0.0) ? c / sqrt(va * vt) : 0.0;
+            /* the echo must still overlap the window */
+            if (!isfinite(e->lag) || !isfinite(e->amplitude) ||
+                e->lag < pr->begin - (double)pr->mdl->m ||
+                e->lag > pr->begin + (double)pr->nwin)
+                out->ok = 0;
+        }
+        if (out->ok) {
+            qsort(out->e, k, sizeof *out->e, se_echo_cmp);
+            for (i = 1; i < k; i++)
+                if (out->e[i].lag - out->e[i - 1].lag < min_sep)
+                    out->ok = 0;
+        }
+        out->k = k;
+        out->rss = rss;
+        out->bic = se_fit_bic(rss, pr->nwin, k, sigma);
+    }
+    gsl_vector_free(p0);
+    gsl_matrix_free(cov);
+    gsl_multifit_nlinear_free(w);
+    if (!out->ok) {
+        se_state_free(out);
+        out->ok = 0;
+    }
+    return 0;
+}
+
+se_status se_fitecho(const se_echo_model *mdl, const double *x, size_t n,
+                     const se_fitecho_config *cfg, const se_echo *init, size_t n_init,
+                     se_echo **out, size_t *n_out, double *bic, double *sigma_used, se_error *err)
+{
+    se_fit_problem pr;
+    se_fit_state cur, cand;
+    se_echo *trial = NULL;
+    double *res = NULL, lo_lag, hi_lag, min_sep;
+    size_t b, e, i, maxk, m;
+    int improved;
+
+    if (mdl == NULL || x == NULL || cfg == NULL || init == NULL || out == NULL || n_out == NULL)
+        return se_fail(err, SE_ERR_ARG, "echo fit: missing argument");
+    *out = NULL;
+    *n_out = 0;
+    if (n_init == 0)
+        return se_fail(err, SE_ERR_ARG, "echo fit: no starting echo");
+    m = mdl->m;
+    maxk = cfg->max_echoes ? cfg->max_echoes : 6;
+    if (n_init > maxk)
+        maxk = n_init;
+    min_sep = cfg->min_separation > 0.0 ? cfg->min_separation : 0.1;
+    lo_lag = hi_lag = init[0].lag;
+    for (i = 0; i < n_init; i++) {
+        if (!isfinite(init[i].lag) || !isfinite(init[i].amplitude))
+            return se_fail(err, SE_ERR_ARG, "echo fit: starting echo %zu is not finite", i);
+        lo_lag = fmin(lo_lag, init[i].lag);
+        hi_lag = fmax(hi_lag, init[i].lag);
+    }
+    if (cfg->begin == 0 && cfg->end == 0) {
+        double bb = floor(lo_lag - 0.5 * (double)m), ee = ceil(hi_lag + 1.5 * (double)m);
+        b = bb > 0.0 ? (size_t)bb : 0;
+        e = ee < (double)n ? (size_t)ee : n;
+    } else {
+        b = cfg->begin;
+        e = cfg->end;
+    }
+    if (e > n || b >= e || e - b < 4 * n_init + 4)
+        return se_fail(err, SE_ERR_ARG, "echo fit: window [%zu, %zu) does not fit a %zu-sample trace",
+                       b, e, n);
+    for (i = b; i < e; i++)
+        if (!isfinite(x[i]))
+            return se_fail(err, SE_ERR_DATA, "echo fit: sample %zu is not finite", i);
+    pr.mdl = mdl;
+    pr.x = x + b;
+    pr.nwin = e - b;
+    pr.begin = (double)b;
+
+    trial = se_calloc(maxk + 1, sizeof *trial, "echo fit", err);
+    res = se_calloc(e - b, sizeof *res, "echo fit residual", err);
+    if (trial == NULL || res == NULL) {
+        free(trial);
+        free(res);
+        return SE_ERR_NOMEM;
+    }
+    memcpy(trial, init, n_init * sizeof *init);
+    qsort(trial, n_init, sizeof *trial, se_echo_cmp);
+    if (se_fit_run(&pr, trial, n_init, cfg->sigma, min_sep, &cur, err) != 0)
+        goto nomem;
+    if (!cur.ok) {
+        free(trial);
+        free(res);
+        return se_fail(err, SE_ERR_NUMERIC,
+                       "echo fit: the %zu-echo fit near lag %.1f did not converge", n_init, lo_lag);
+    }
+
+    do {
+        improved = 0;
+        /* add: where the residual correlates best with the pulse */
+        if (cur.k < maxk) {
+            gsl_vector_view fv;
+            gsl_vector *pv = gsl_vector_alloc(2 * cur.k);
+            double best = 0.0;
+            long kb = 0, lo, hi, kk;
+            if (pv == NULL)
+                goto nomem;
+            for (i = 0; i < cur.k; i++) {
+                gsl_vector_set(pv, 2 * i, cur.e[i].amplitude);
+                gsl_vector_set(pv, 2 * i + 1, cur.e[i].lag);
+            }
+            fv = gsl_vector_view_array(res, e - b);
+            se_fit_f(pv, &pr, &fv.vector);
+            gsl_vector_free(pv);
+            lo = (long)b - (long)(m / 2);
+            hi = (long)e - (long)(m / 2);
+            for (kk = lo; kk < hi; kk++) {
+                double c = 0.0;
+                size_t j;
+                for (j = 0; j < m; j++) {
+                    long t = kk + (long)j;
+                    if (t >= (long)b && t < (long)e)
+                        c += res[t - (long)b] * mdl->raw[j];
+                }
+                c /= mdl->energy;
+                if (fabs(c) > fabs(best)) {
+                    best = c;
+                    kb = kk;
+                }
+            }
+            if (best != 0.0) {
+                memcpy(trial, cur.e, cur.k * sizeof *trial);
+                trial[cur.k].lag = (double)kb;
+                trial[cur.k].amplitude = best;
+                qsort(trial, cur.k + 1, sizeof *trial, se_echo_cmp);
+                if (se_fit_run(&pr, trial, cur.k + 1, cfg->sigma, min_sep, &cand, err) != 0)
+                    goto nomem;
+                if (cand.ok && cand.bic < cur.bic) {
+                    se_state_free(&cur);
+                    cur = cand;
+                    improved = 1;
+                } else {
+                    se_state_free(&cand);
+                }
+            }
+        }
+        /* remove: the best model with one echo fewer */
+        if (!improved && cur.k > 1) {
+            se_fit_state best;
+            size_t drop;
+            memset(&best, 0, sizeof best);
+            for (drop = 0; drop < cur.k; drop++) {
+                size_t j, q = 0;
+                for (j = 0; j < cur.k; j++)
+                    if (j != drop)
+                        trial[q++] = cur.e[j];
+                if (se_fit_run(&pr, trial, cur.k - 1, cfg->sigma, min_sep, &cand, err) != 0) {
+                    se_state_free(&best);
+                    goto nomem;
+                }
+                if (cand.ok && (!best.ok || cand.bic < best.bic)) {
+                    se_state_free(&best);
+                    best = cand;
+                } else {
+                    se_state_free(&cand);
+                }
+            }
+            if (best.ok && best.bic < cur.bic) {
+                se_state_free(&cur);
+                cur = best;
+                improved = 1;
+            } else {
+                se_state_free(&best);
+            }
+        }
+    } while (improved);
+
+    /* Amplitude tests: drop the weakest failing echo and refit, until all pass. */
+    for (;;) {
+        size_t worst = SIZE_MAX, j, q = 0;
+        double wz = INFINITY;
+        for (j = 0; j < cur.k; j++) {
+            double a = fabs(cur.e[j].amplitude), zz = a / fmax(cur.e[j].amplitude_sd, 1e-300);
+            if ((a < cfg->min_amplitude || zz < 3.0) && zz < wz) {
+                wz = zz;
+                worst = j;
+            }
+        }
+        if (worst == SIZE_MAX)
+            break;
+        if (cur.k == 1) {
+            se_state_free(&cur);
+            break;
+        }
+        for (j = 0; j < cur.k; j++)
+            if (j != worst)
+                trial[q++] = cur.e[j];
+        if (se_fit_run(&pr, trial, q, cfg->sigma, min_sep, &cand, err) != 0)
+            goto nomem;
+        se_state_free(&cur);
+        if (!cand.ok)
+            break;
+        cur = cand;
+    }
+    free(trial);
+    free(res);
+    *out = cur.e;
+    *n_out = cur.k;
+    if (bic != NULL)
+        *bic = cur.e != NULL ? cur.bic : NAN;
+    if (sigma_used != NULL)
+        *sigma_used = cfg->sigma > 0.0 ? cfg->sigma
+                                       : (cur.k > 0 && pr.nwin > 2 * cur.k
+                                              ? sqrt(cur.rss / (double)(pr.nwin - 2 * cur.k))
+                                              : NAN);
+    if (cur.e == NULL)
+        *n_out = 0;
+    return SE_OK;
+nomem:
+    se_state_free(&cur);
+    free(trial);
+    free(res);
+    return err ? err->code : SE_ERR_NOMEM;
+}
