@@ -1,9 +1,13 @@
 /* strandecho: matched filter by overlap-save on FFTW r2c/c2r. */
+#include <errno.h>
 #include <fftw3.h>
 #include <limits.h>
 #include <math.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
+#include <unistd.h>
 
 #include "internal.h"
 #include "strandecho/xcorr.h"
@@ -16,6 +20,7 @@ struct se_xcorr {
     fftw_complex *h;   /* conj(S) / (B E_s), B/2 + 1 bins */
     fftw_plan fwd;     /* r2c, B */
     fftw_plan inv;     /* c2r, B */
+    se_xcorr_plan source; /* how the plans were made */
 };
 
 struct se_xcorr_work {
@@ -36,6 +41,10 @@ struct se_xcorr_stream {
 static int se_is_pow2(size_t b);
 static void se_xcorr_block(const se_xcorr *p, se_xcorr_work *w);
 static const double *se_first_nonfinite(const double *x, size_t n);
+static se_xcorr_plan se_xcorr_plan_pair(const se_xcorr_config *cfg, int block, double *tin,
+                                        fftw_complex *tspec, double *tout, fftw_plan *fwd,
+                                        fftw_plan *inv);
+static void se_xcorr_save_wisdom(const char *path);
 
 static int se_is_pow2(size_t b)
 {
@@ -68,6 +77,103 @@ static void se_xcorr_block(const se_xcorr *p, se_xcorr_work *w)
 
 se_xcorr *se_xcorr_create(const double *pulse, size_t m, size_t block, se_error *err)
 {
+    se_xcorr_config cfg;
+    memset(&cfg, 0, sizeof cfg);
+    cfg.block = block;
+    return se_xcorr_create_with(pulse, m, &cfg, err);
+}
+
+se_status se_xcorr_wisdom_default_path(char *buf, size_t size, int create_dir, se_error *err)
+{
+    const char *xdg = getenv("XDG_CACHE_HOME"), *home = getenv("HOME");
+    char dir[4096];
+    int k;
+    if (buf == NULL || size == 0)
+        return se_fail(err, SE_ERR_ARG, "wisdom path: no buffer");
+    /* XDG Base Directory: a relative XDG_CACHE_HOME is invalid and ignored */
+    if (xdg != NULL && xdg[0] == '/')
+        k = snprintf(dir, sizeof dir, "%s/strandecho", xdg);
+    else if (home != NULL && home[0] != '\0')
+        k = snprintf(dir, sizeof dir, "%s/.cache/strandecho", home);
+    else
+        return se_fail(err, SE_ERR_ARG, "wisdom path: neither XDG_CACHE_HOME nor HOME is set");
+    if (k < 0 || (size_t)k >= sizeof dir || (size_t)k + sizeof "/fftw-wisdom" > size)
+        return se_fail(err, SE_ERR_ARG, "wisdom path: the cache folder path is too long");
+    if (create_dir) {
+        /* the parent (.cache) may be missing too */
+        char *slash = strrchr(dir, '/');
+        if (slash != NULL && slash != dir) {
+            *slash = '\0';
+            if (mkdir(dir, 0700) != 0 && errno != EEXIST)
+                return se_fail(err, SE_ERR_IO, "wisdom path: cannot create %s: %s", dir, strerror(errno));
+            *slash = '/';
+        }
+        if (mkdir(dir, 0700) != 0 && errno != EEXIST)
+            return se_fail(err, SE_ERR_IO, "wisdom path: cannot create %s: %s", dir, strerror(errno));
+    }
+    snprintf(buf, size, "%s/fftw-wisdom", dir);
+    return SE_OK;
+}
+
+/* Plans for one block length: from wisdom when it holds them (FFTW_WISDOM_ONLY returns NULL
+ * otherwise), else measured when the caller allows, else estimated. MEASURE overwrites the
+ * arrays: they are scratch here. */
+static se_xcorr_plan se_xcorr_plan_pair(const se_xcorr_config *cfg, int block, double *tin,
+                                        fftw_complex *tspec, double *tout, fftw_plan *fwd,
+                                        fftw_plan *inv)
+{
+    *fwd = *inv = NULL;
+    if (cfg->wisdom_path != NULL || cfg->measure) {
+        if (cfg->wisdom_path != NULL)
+            (void)fftw_import_wisdom_from_filename(cfg->wisdom_path); /* missing file: no wisdom */
+        *fwd = fftw_plan_dft_r2c_1d(block, tin, tspec, FFTW_MEASURE | FFTW_WISDOM_ONLY);
+        *inv = fftw_plan_dft_c2r_1d(block, tspec, tout, FFTW_MEASURE | FFTW_WISDOM_ONLY);
+        if (*fwd != NULL && *inv != NULL)
+            return SE_XCORR_PLAN_WISDOM;
+        if (*fwd != NULL)
+            fftw_destroy_plan(*fwd);
+        if (*inv != NULL)
+            fftw_destroy_plan(*inv);
+        *fwd = *inv = NULL;
+        if (cfg->measure) {
+            *fwd = fftw_plan_dft_r2c_1d(block, tin, tspec, FFTW_MEASURE);
+            *inv = fftw_plan_dft_c2r_1d(block, tspec, tout, FFTW_MEASURE);
+            if (*fwd != NULL && *inv != NULL) {
+                if (cfg->wisdom_path != NULL)
+                    se_xcorr_save_wisdom(cfg->wisdom_path);
+                return SE_XCORR_PLAN_MEASURED;
+            }
+            if (*fwd != NULL)
+                fftw_destroy_plan(*fwd);
+            if (*inv != NULL)
+                fftw_destroy_plan(*inv);
+            *fwd = *inv = NULL;
+        }
+    }
+    /* FFTW_ESTIMATE does not touch the arrays */
+    *fwd = fftw_plan_dft_r2c_1d(block, tin, tspec, FFTW_ESTIMATE);
+    *inv = fftw_plan_dft_c2r_1d(block, tspec, tout, FFTW_ESTIMATE);
+    return SE_XCORR_PLAN_ESTIMATE;
+}
+
+/* Wisdom to path through a temporary file and rename, so a reader never sees half a file. A
+ * failure leaves the old file and only costs a later measurement: not reported. */
+static void se_xcorr_save_wisdom(const char *path)
+{
+    char tmp[4200];
+    int k = snprintf(tmp, sizeof tmp, "%s.%ld.tmp", path, (long)getpid());
+    if (k < 0 || (size_t)k >= sizeof tmp)
+        return;
+    if (fftw_export_wisdom_to_filename(tmp) && rename(tmp, path) == 0)
+        return;
+    (void)remove(tmp);
+}
+
+se_xcorr *se_xcorr_create_with(const double *pulse, size_t m, const se_xcorr_config *cfg_in,
+                               se_error *err)
+{
+    se_xcorr_config cfg;
+    size_t block;
     se_xcorr *p;
     double *tin = NULL, *tout = NULL;
     fftw_complex *tspec = NULL;
@@ -75,6 +181,11 @@ se_xcorr *se_xcorr_create(const double *pulse, size_t m, size_t block, se_error 
     double e = 0.0;
     const double *bad;
 
+    if (cfg_in != NULL)
+        cfg = *cfg_in;
+    else
+        memset(&cfg, 0, sizeof cfg);
+    block = cfg.block;
     if (pulse == NULL || m == 0) {
         se_fail(err, SE_ERR_ARG, "xcorr: pulse is %s", pulse == NULL ? "NULL" : "empty (m = 0)");
         return NULL;
@@ -122,10 +233,9 @@ se_xcorr *se_xcorr_create(const double *pulse, size_t m, size_t block, se_error 
         se_fail(err, SE_ERR_NOMEM, "xcorr: cannot allocate FFT arrays of %zu samples", block);
         goto fail;
     }
-    /* FFTW_ESTIMATE does not touch the arrays; the plans are later run on other fftw_malloc'd
-     * arrays (same alignment) with the new-array execute functions. */
-    p->fwd = fftw_plan_dft_r2c_1d((int)block, tin, tspec, FFTW_ESTIMATE);
-    p->inv = fftw_plan_dft_c2r_1d((int)block, tspec, tout, FFTW_ESTIMATE);
+    /* The plans are later run on other fftw_malloc'd arrays (same alignment) with the new-array
+     * execute functions. */
+    p->source = se_xcorr_plan_pair(&cfg, (int)block, tin, tspec, tout, &p->fwd, &p->inv);
     if (p->fwd == NULL || p->inv == NULL) {
         se_fail(err, SE_ERR_NOMEM, "xcorr: FFTW could not plan a transform of %zu samples", block);
         goto fail;
@@ -161,6 +271,16 @@ void se_xcorr_destroy(se_xcorr *p)
         fftw_destroy_plan(p->inv);
     fftw_free(p->h);
     free(p);
+}
+
+se_xcorr_plan se_xcorr_plan_source(const se_xcorr *p)
+{
+    return p == NULL ? SE_XCORR_PLAN_ESTIMATE : p->source;
+}
+
+size_t se_xcorr_step(const se_xcorr *p)
+{
+    return p == NULL ? 0 : p->step;
 }
 
 size_t se_xcorr_block_size(const se_xcorr *p)
@@ -212,6 +332,12 @@ void se_xcorr_work_destroy(se_xcorr_work *w)
 se_status se_xcorr_run(const se_xcorr *p, se_xcorr_work *w, const double *x, size_t n, double *r,
                        se_error *err)
 {
+    return se_xcorr_run_part(p, w, x, n, n, r, err);
+}
+
+se_status se_xcorr_run_part(const se_xcorr *p, se_xcorr_work *w, const double *x, size_t n,
+                            size_t nout_total, double *r, se_error *err)
+{
     size_t o;
     const double *bad;
     if (p == NULL || w == NULL || x == NULL || r == NULL)
@@ -219,12 +345,15 @@ se_status se_xcorr_run(const se_xcorr *p, se_xcorr_work *w, const double *x, siz
                        p == NULL ? "engine" : w == NULL ? "work" : x == NULL ? "input" : "output");
     if (n == 0)
         return se_fail(err, SE_ERR_ARG, "xcorr run: empty input (n = 0)");
+    if (nout_total == 0 || nout_total > n)
+        return se_fail(err, SE_ERR_ARG, "xcorr run: %zu outputs asked of %zu input samples",
+                       nout_total, n);
     if ((bad = se_first_nonfinite(x, n)) != NULL)
         return se_fail(err, SE_ERR_DATA, "xcorr run: input sample %zu is not finite", (size_t)(bad - x));
-    for (o = 0; o < n; o += p->step) {
-        size_t avail = n - o;
+    for (o = 0; o < nout_total; o += p->step) {
+        size_t avail = n - o, left = nout_total - o;
         size_t cnt = avail < p->block ? avail : p->block;
-        size_t nout = avail < p->step ? avail : p->step;
+        size_t nout = left < p->step ? left : p->step;
         memcpy(w->in, x + o, cnt * sizeof *x);
         if (cnt < p->block)
             memset(w->in + cnt, 0, (p->block - cnt) * sizeof *x);

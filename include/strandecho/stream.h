@@ -1,0 +1,85 @@
+/* strandecho: streaming locate. The locator of locate.h run on a recording read from libsndfile in
+ * blocks, so memory does not grow with the record: the matched filter is computed chunk by chunk
+ * (overlap-save, se_xcorr_run_part, up to two threads), the noise is estimated on the same strided
+ * sample of at most 2^20 lags se_locate uses (se_noise_mad), only windows of r around candidates
+ * above a pre-threshold are kept, CLEAN (se_detect) runs on each window, and the events are
+ * classified by the locator's own event stage.
+ *
+ * Same results as se_locate on the whole record: the same events, with lags bit for bit equal when
+ * both plan with FFTW_ESTIMATE (the default here), within ~1e-12 sample otherwise; see
+ * se_locate_stream for the two cases where the answer can differ.
+ *
+ * Memory: about 8 (2 T + 2) block doubles for the chunks, 2 MiB around the direct arrival, 32 MiB at
+ * most for the noise sample (16 bytes per sampled lag, twice during the final median), plus the
+ * windows kept around candidates (about 5 pulse lengths each), whatever the record length. */
+#ifndef SE_STREAM_H
+#define SE_STREAM_H
+
+#include <stddef.h>
+
+#include "strandecho/error.h"
+#include "strandecho/locate.h"
+#include "strandecho/xcorr.h"
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+/* No pulse channel: the reference comes from the locate configuration. */
+#define SE_STREAM_NO_CHANNEL (-1)
+
+typedef struct se_stream_config {
+    unsigned channel;         /* response channel, 0-based */
+    int pulse_channel;        /* 0-based channel carrying the injected pulse, or SE_STREAM_NO_CHANNEL.
+                                 When set, the pulse is found by se_pulse_support on the first
+                                 pulse_window samples of that channel and used as the reference
+                                 (SE_REF_CHANNEL, offset where it starts), replacing cfg's */
+    size_t pulse_window;      /* samples of the pulse channel searched (0 = 2^20) */
+    size_t block;             /* lags correlated per chunk and thread (0 = 2^17), rounded down to a
+                                 multiple of the engine's step (at least one step) */
+    unsigned threads;         /* 1 or 2 worker threads for the correlation (0 = 2) */
+    size_t noise_samples;     /* lags sampled for the noise (0 = 2^20, as se_locate) */
+    const char *wisdom_path;  /* FFTW wisdom file (see se_xcorr_config), NULL = none */
+    int measure;              /* 1: FFTW_MEASURE when the wisdom lacks the size (then the values
+                                 differ from se_locate's ESTIMATE plans by rounding only) */
+} se_stream_config;
+
+/* What the run read and did (filled as far as it got, also on failure). */
+typedef struct se_stream_info {
+    size_t frames;            /* samples per channel in the file */
+    unsigned channels;        /* channels in the file */
+    double rate;              /* sample rate, Hz */
+    char format[48];          /* libsndfile's format name, e.g. "WAV float32" -> "WAV (Microsoft)" */
+    unsigned passes;          /* correlation passes over the file (1; 2 without a known time base;
+                                 one more when the pre-threshold proved too high) */
+    size_t windows;           /* candidate windows kept */
+    size_t window_samples;    /* r samples held in them */
+    se_xcorr_plan plan;       /* how the FFT plans were made */
+} se_stream_info;
+
+/* Defaults: channel 0, no pulse channel, auto block, 2 threads, 2^20 noise lags, no wisdom. */
+void se_stream_config_init(se_stream_config *scfg);
+
+/* Locate reflections in a recording file read in blocks.
+ *  path : any file libsndfile reads (borrowed); text tables are not streamed (SE_ERR_FORMAT)
+ *  cfg  : as for se_locate, except that the reference must be given (SE_REF_CHANNEL with its offset,
+ *         SE_REF_FILE, SE_REF_SYNTHETIC) or come from scfg->pulse_channel; the direct-arrival self
+ *         reference and acceleration/displacement responses (which need the whole record for their
+ *         conversion) are refused with SE_ERR_ARG
+ *  scfg : NULL = defaults
+ *  res  : filled as by se_locate (caller frees with se_locate_result_free even on failure)
+ *  info : may be NULL
+ * The answer can differ from se_locate's only (1) when more than cfg->max_events peaks pass the
+ * threshold (the streaming run keeps the largest, CLEAN on the whole record the first found), and
+ * (2) with a pulse channel longer than pulse_window (se_pulse_support then sees a prefix).
+ * Errors: as se_locate, plus SE_ERR_IO / SE_ERR_FORMAT from the file (named), SE_ERR_DATA for a
+ * non-finite sample (named by sample and channel), SE_ERR_ARG for a bad channel or option. */
+se_status se_locate_stream(const char *path, const se_locate_config *cfg,
+                           const se_stream_config *scfg, se_locate_result *res,
+                           se_stream_info *info, se_error *err);
+
+#ifdef __cplusplus
+}
+#endif
+
+#endif /* SE_STREAM_H */

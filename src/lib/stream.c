@@ -1,0 +1,988 @@
+/* strandecho: streaming locate (see stream.h). One correlation pass in the usual case:
+ *   chunks of x -> r (threads) -> [direct-arrival store D] [noise sample q] [candidate windows]
+ * then the direct arrival is refined on D, the noise estimated on q exactly as se_locate does,
+ * CLEAN run on each window and the events classified by se_locate_events. */
+#include "strandecho/stream.h"
+
+#include <math.h>
+#include <pthread.h>
+#include <sndfile.h>
+#include <stdint.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "internal.h"
+#include "strandecho/detect.h"
+#include "strandecho/distmap.h"
+#include "strandecho/wave.h"
+
+#define SE_STREAM_NOISE_FLOOR 1e-4            /* as se_locate: 80 dB below the direct arrival */
+#define SE_STREAM_CLIP_RUN 5                  /* as se_locate */
+#define SE_STREAM_DEFAULT_BLOCK ((size_t)1 << 17)
+#define SE_STREAM_DEFAULT_NOISE ((size_t)1 << 20)
+#define SE_STREAM_PULSE_WINDOW ((size_t)1 << 20)
+#define SE_STREAM_PROVISIONAL ((size_t)1 << 15) /* lags for the provisional noise */
+#define SE_STREAM_DIRECT_HALF (((size_t)1 << 17) + 8) /* > se_refine_peak's largest window 2^16 */
+#define SE_STREAM_READ_FRAMES 8192
+
+/* Clipping runs at one extreme, tracked while the extreme may still move. */
+typedef struct se_clip_side {
+    double value;
+    size_t count, samples, runs[SE_MAX_CLIP_RUNS][2], nruns;
+} se_clip_side;
+
+/* A window of r kept around candidates: data r[a .. a+len). */
+typedef struct se_window {
+    size_t a, len, cap;
+    size_t cand_first, cand_last;
+    double cmax;
+    double *data;
+} se_window;
+
+typedef struct se_worker {
+    const se_xcorr *xc;
+    se_xcorr_work *w;
+    const double *x;
+    size_t n, nout;
+    double *r;
+    se_status st;
+    se_error err;
+} se_worker;
+
+/* Everything one run needs. */
+typedef struct se_sl {
+    const se_locate_config *cfg;
+    size_t n, m, ext, win, mg, reach, left; /* left: r kept before a candidate */
+    /* direct arrival */
+    size_t lo, hi;                 /* argmax range */
+    size_t d0, d1;                 /* D = r[d0, d1) */
+    double *dbuf;
+    int known;
+    size_t k0;
+    /* noise sample */
+    size_t start, end, stride, used, ni, qn;
+    int pending;
+    double *q;                     /* pairs r[at], r[at+1] */
+    /* provisional noise and pre-threshold */
+    double *pbuf;
+    size_t pcount, plen;
+    double pre, pre_fixed;
+    double fa;
+    /* history ring */
+    double *ring;
+    size_t ringcap;
+    /* windows */
+    se_window *wins;
+    size_t nwins, capwins;
+    int open;
+    /* unknown time base (pass 0): prefix maxima of |r| */
+    int pass0;
+    size_t *pm_i;
+    double *pm_v;
+    size_t pm_n, pm_cap, pm_head;
+    double gmax;
+    /* clipping and constant check on the raw response */
+    se_clip_side cmax, cmin;
+    double run_v, first_v;
+    size_t run_start, seen;
+    int varies;
+} se_sl;
+
+static se_status se_sl_alloc_window(se_sl *s, size_t i, se_error *err);
+static se_status se_sl_feed(se_sl *s, size_t i, double v, se_error *err);
+static se_status se_sl_know(se_sl *s, size_t c0, size_t c1, const double *chunk, se_error *err);
+static se_status se_sl_chunk(se_sl *s, size_t c0, size_t c1, const double *r, se_error *err);
+static void se_clip_close(se_sl *s);
+static void se_clip_sample(se_sl *s, size_t i, double v);
+static void se_clip_result(const se_sl *s, se_locate_result *res);
+static se_status se_provisional(se_sl *s, se_error *err);
+static void *se_worker_run(void *arg);
+static se_status se_pass(se_sl *s, SNDFILE *snd, const char *path, unsigned nch, unsigned ch,
+                         const se_xcorr *xc, se_xcorr_work *const *w, unsigned threads, size_t lc,
+                         se_error *err);
+static void se_sl_reset(se_sl *s);
+static int se_peak_by_size(const void *a, const void *b);
+static int se_peak_by_lag(const void *a, const void *b);
+
+static int se_peak_by_size(const void *a, const void *b)
+{
+    double x = fabs(((const se_peak *)a)->amplitude), y = fabs(((const se_peak *)b)->amplitude);
+    return (x < y) - (x > y);
+}
+
+static int se_peak_by_lag(const void *a, const void *b)
+{
+    double x = ((const se_peak *)a)->lag, y = ((const se_peak *)b)->lag;
+    return (x > y) - (x < y);
+}
+
+void se_stream_config_init(se_stream_config *scfg)
+{
+    memset(scfg, 0, sizeof *scfg);
+    scfg->pulse_channel = SE_STREAM_NO_CHANNEL;
+    scfg->threads = 2;
+}
+
+static void *se_worker_run(void *arg)
+{
+    se_worker *wk = arg;
+    se_error_clear(&wk->err);
+    wk->st = se_xcorr_run_part(wk->xc, wk->w, wk->x, wk->n, wk->nout, wk->r, &wk->err);
+    return NULL;
+}
+
+/* ---- clipping: runs of equal samples at the record's extremes (se_locate's rule) ---- */
+
+static void se_clip_side_add(se_clip_side *c, size_t b, size_t e)
+{
+    if (c->nruns < SE_MAX_CLIP_RUNS) {
+        c->runs[c->nruns][0] = b;
+        c->runs[c->nruns][1] = e;
+        c->nruns++;
+    }
+    c->count++;
+    c->samples += e - b;
+}
+
+static void se_clip_close(se_sl *s)
+{
+    size_t len = s->seen - s->run_start;
+    if (s->seen == 0 || len < SE_STREAM_CLIP_RUN)
+        return;
+    if (s->run_v == s->cmax.value)
+        se_clip_side_add(&s->cmax, s->run_start, s->seen);
+    else if (s->run_v == s->cmin.value)
+        se_clip_side_add(&s->cmin, s->run_start, s->seen);
+}
+
+static void se_clip_sample(se_sl *s, size_t i, double v)
+{
+    if (i == 0) {
+        s->cmax.value = s->cmin.value = s->first_v = s->run_v = v;
+        s->run_start = 0;
+        s->seen = 1;
+        return;
+    }
+    if (v != s->run_v) {
+        se_clip_close(s);
+        s->run_v = v;
+        s->run_start = i;
+    }
+    if (v != s->first_v)
+        s->varies = 1;
+    /* a new extreme voids the runs found at the old one */
+    if (v > s->cmax.value) {
+        memset(&s->cmax, 0, sizeof s->cmax);
+        s->cmax.value = v;
+    }
+    if (v < s->cmin.value) {
+        memset(&s->cmin, 0, sizeof s->cmin);
+        s->cmin.value = v;
+    }
+    s->seen = i + 1;
+}
+
+/* The two sides merged in time order, as se_locate's single scan records them. */
+static void se_clip_result(const se_sl *s, se_locate_result *res)
+{
+    size_t a = 0, b = 0;
+    const se_clip_side *x = &s->cmax, *y = &s->cmin;
+    res->clipped_samples = x->samples + (x->value != y->value ? y->samples : 0);
+    res->first_clipped = SIZE_MAX;
+    res->n_clip_runs = 0;
+    if (x->value == y->value)
+        y = NULL; /* constant record: refused earlier */
+    while (res->n_clip_runs < SE_MAX_CLIP_RUNS && (a < x->nruns || (y != NULL && b < y->nruns))) {
+        int takex = y == NULL || b >= y->nruns || (a < x->nruns && x->runs[a][0] < y->runs[b][0]);
+        const size_t *run = takex ? x->runs[a++] : y->runs[b++];
+        res->clip_runs[res->n_clip_runs][0] = run[0];
+        res->clip_runs[res->n_clip_runs][1] = run[1];
+        res->n_clip_runs++;
+    }
+    /* more runs than remembered: se_locate's list is full as well */
+    if (x->count + (y != NULL ? y->count : 0) > SE_MAX_CLIP_RUNS)
+        res->n_clip_runs = SE_MAX_CLIP_RUNS;
+    if (res->n_clip_runs > 0)
+        res->first_clipped = res->clip_runs[0][0];
+}
+
+/* ---- candidate windows ---- */
+
+static se_status se_sl_alloc_window(se_sl *s, size_t i, se_error *err)
+{
+    se_window *w;
+    size_t a = i > s->left ? i - s->left : 0, j;
+    if (s->nwins == s->capwins) {
+        size_t nc = s->capwins ? 2 * s->capwins : 16;
+        se_window *nw = realloc(s->wins, nc * sizeof *nw);
+        if (nw == NULL)
+            return se_fail(err, SE_ERR_NOMEM, "stream: cannot grow the window list to %zu", nc);
+        s->wins = nw;
+        s->capwins = nc;
+    }
+    w = &s->wins[s->nwins];
+    memset(w, 0, sizeof *w);
+    w->a = a;
+    w->cap = 2 * s->left + 2;
+    w->data = malloc(w->cap * sizeof *w->data);
+    if (w->data == NULL)
+        return se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate a window of %zu samples", w->cap);
+    for (j = a; j < i; j++) /* the history before the candidate, from the ring */
+        w->data[w->len++] = s->ring[j % s->ringcap];
+    w->cand_first = w->cand_last = i;
+    w->cmax = 0.0;
+    s->nwins++;
+    s->open = 1;
+    return SE_OK;
+}
+
+/* Provisional noise on the first lags after start: a pre-threshold at half the threshold it
+ * implies, far below the final one unless the noise changes by half along the record (checked at
+ * the end, and the pass redone then). Windows that no longer reach it are dropped. */
+static se_status se_provisional(se_sl *s, se_error *err)
+{
+    se_noise nz;
+    double k, pre;
+    size_t i, keep = 0;
+    se_status st = se_noise_mad(s->pbuf, 0, s->pcount, 0, &nz, err);
+    if (st != SE_OK)
+        return st;
+    k = se_rice_k((double)(s->end - s->start), nz.beta > 0.0 ? nz.beta : 1.0, s->fa);
+    pre = isfinite(k) ? 0.5 * k * nz.sigma : 0.0;
+    if (pre > s->pre)
+        s->pre = pre;
+    for (i = 0; i < s->nwins; i++) {
+        int last = i + 1 == s->nwins;
+        if (s->wins[i].cmax >= s->pre) {
+            s->wins[keep++] = s->wins[i];
+        } else {
+            free(s->wins[i].data);
+            if (last)
+                s->open = 0;
+        }
+    }
+    s->nwins = keep;
+    return SE_OK;
+}
+
+/* One lag of r, in order, once the direct arrival is known. */
+static se_status se_sl_feed(se_sl *s, size_t i, double v, se_error *err)
+{
+    se_status st;
+    s->ring[i % s->ringcap] = v;
+    /* noise sample at start + k stride, with the next lag for the difference */
+    if (s->pending && i == s->start + s->ni * s->stride + 1) {
+        s->q[s->qn++] = v;
+        s->pending = 0;
+        s->ni++;
+    }
+    if (s->ni < s->used && i == s->start + s->ni * s->stride) {
+        s->q[s->qn++] = v;
+        if (i + 1 < s->end)
+            s->pending = 1;
+        else
+            s->ni++;
+    }
+    if (i < s->start || i >= s->end) {
+        if (s->open) {
+            se_window *w = &s->wins[s->nwins - 1];
+            if (i <= w->cand_last + s->left)
+                w->data[w->len++] = v;
+            else if (i >= w->cand_last + 2 * s->left)
+                s->open = 0;
+        }
+        return SE_OK;
+    }
+    if (s->pre_fixed == 0.0 && s->pcount < s->plen) {
+        s->pbuf[s->pcount++] = v;
+        if (s->pcount == s->plen && (st = se_provisional(s, err)) != SE_OK)
+            return st;
+    }
+    if (fabs(v) >= s->pre) {
+        se_window *w;
+        if (!s->open && (st = se_sl_alloc_window(s, i, err)) != SE_OK)
+            return st;
+        w = &s->wins[s->nwins - 1];
+        /* the data must run to i + left: grow for the gap already held plus that reach */
+        if (w->a + w->cap < i + s->left + 2) {
+            size_t nc = 2 * w->cap;
+            double *nd;
+            while (w->a + nc < i + s->left + 2)
+                nc *= 2;
+            nd = realloc(w->data, nc * sizeof *nd);
+            if (nd == NULL)
+                return se_fail(err, SE_ERR_NOMEM, "stream: cannot grow a window to %zu samples", nc);
+            w->data = nd;
+            w->cap = nc;
+        }
+        /* lags between the data end and i come from the ring (they were not needed until now) */
+        while (w->a + w->len < i)
+            w->data[w->len] = s->ring[(w->a + w->len) % s->ringcap], w->len++;
+        w->data[w->len++] = v;
+        w->cand_last = i;
+        if (fabs(v) > w->cmax)
+            w->cmax = fabs(v);
+        return SE_OK;
+    }
+    if (s->open) {
+        se_window *w = &s->wins[s->nwins - 1];
+        if (i <= w->cand_last + s->left) {
+            if (w->len == w->cap) {
+                double *nd = realloc(w->data, 2 * w->cap * sizeof *nd);
+                if (nd == NULL)
+                    return se_fail(err, SE_ERR_NOMEM, "stream: cannot grow a window");
+                w->data = nd;
+                w->cap *= 2;
+            }
+            if (w->a + w->len == i)
+                w->data[w->len++] = v;
+        } else if (i >= w->cand_last + 2 * s->left) {
+            s->open = 0;
+        }
+    }
+    return SE_OK;
+}
+
+/* The argmax range [lo, hi) has been seen: fix k0 (se_locate's rule: the first largest |r|), the
+ * noise sample and the pre-threshold floor, then replay the lags seen so far. */
+static se_status se_sl_know(se_sl *s, size_t c0, size_t c1, const double *chunk, se_error *err)
+{
+    size_t i, best = SIZE_MAX, count, f0;
+    double bestv = 0.0;
+    se_status st;
+    for (i = s->lo; i < s->hi; i++)
+        if (fabs(s->dbuf[i - s->d0]) > bestv) {
+            bestv = fabs(s->dbuf[i - s->d0]);
+            best = i;
+        }
+    if (best == SIZE_MAX || !(bestv > 0.0))
+        return se_fail(err, SE_ERR_NOTFOUND,
+                       "the outgoing pulse does not appear in the response (no correlation peak)");
+    s->k0 = best;
+    s->known = 1;
+    s->start = s->k0 + s->m < s->n ? s->k0 + s->m : s->n;
+    s->end = s->n - s->m + 1;
+    if (s->end <= s->start + 16)
+        return SE_OK; /* reported by the caller with se_locate's message */
+    count = s->end - s->start;
+    s->stride = count / s->used + (count % s->used != 0); /* s->used holds max_samples here */
+    s->used = (count + s->stride - 1) / s->stride;
+    s->q = malloc(2 * s->used * sizeof *s->q);
+    if (s->q == NULL)
+        return se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate the noise sample (%zu lags)", s->used);
+    /* CLEAN's floor: sigma >= 1e-4 |a0| and k >= 3, so |r| below 3e-4 |a0| is never detected;
+     * half that for the refined a0 against |r[k0]|. */
+    if (s->pre_fixed > 0.0)
+        s->pre = s->pre_fixed;
+    else
+        s->pre = 0.5 * 3.0 * SE_STREAM_NOISE_FLOOR * bestv;
+    f0 = s->start > s->left + 1 ? s->start - s->left - 1 : 0;
+    for (i = f0; i < c1; i++) {
+        double v = i < s->d1 ? s->dbuf[i - s->d0] : chunk[i - c0];
+        if ((st = se_sl_feed(s, i, v, err)) != SE_OK)
+            return st;
+    }
+    return SE_OK;
+}
+
+/* r[c0, c1) of the record, in order. */
+static se_status se_sl_chunk(se_sl *s, size_t c0, size_t c1, const double *r, se_error *err)
+{
+    size_t i;
+    se_status st;
+    if (s->pass0) {
+        for (i = c0; i < c1; i++) {
+            double a = fabs(r[i - c0]);
+            if (a > s->gmax) {
+                s->gmax = a;
+                /* prefix maxima below half the largest so far can no longer be the answer */
+                while (s->pm_head < s->pm_n && s->pm_v[s->pm_head] < 0.5 * a)
+                    s->pm_head++;
+                if (s->pm_head > 0 && s->pm_n == s->pm_cap) {
+                    memmove(s->pm_i, s->pm_i + s->pm_head, (s->pm_n - s->pm_head) * sizeof *s->pm_i);
+                    memmove(s->pm_v, s->pm_v + s->pm_head, (s->pm_n - s->pm_head) * sizeof *s->pm_v);
+                    s->pm_n -= s->pm_head;
+                    s->pm_head = 0;
+                }
+                if (s->pm_n == s->pm_cap) {
+                    size_t nc = s->pm_cap ? 2 * s->pm_cap : 64;
+                    size_t *ni = realloc(s->pm_i, nc * sizeof *ni);
+                    double *nv;
+                    if (ni == NULL)
+                        return se_fail(err, SE_ERR_NOMEM, "stream: cannot grow the maxima list");
+                    s->pm_i = ni;
+                    nv = realloc(s->pm_v, nc * sizeof *nv);
+                    if (nv == NULL)
+                        return se_fail(err, SE_ERR_NOMEM, "stream: cannot grow the maxima list");
+                    s->pm_v = nv;
+                    s->pm_cap = nc;
+                }
+                s->pm_i[s->pm_n] = i;
+                s->pm_v[s->pm_n++] = a;
+            }
+        }
+        return SE_OK;
+    }
+    if (c1 > s->d0 && c0 < s->d1) {
+        size_t a = c0 > s->d0 ? c0 : s->d0, b = c1 < s->d1 ? c1 : s->d1;
+        memcpy(s->dbuf + (a - s->d0), r + (a - c0), (b - a) * sizeof *r);
+    }
+    if (!s->known) {
+        if (c1 >= s->hi)
+            return se_sl_know(s, c0, c1, r, err);
+        return SE_OK;
+    }
+    if (s->end <= s->start + 16)
+        return SE_OK;
+    for (i = c0; i < c1; i++)
+        if ((st = se_sl_feed(s, i, r[i - c0], err)) != SE_OK)
+            return st;
+    return SE_OK;
+}
+
+static void se_sl_reset(se_sl *s)
+{
+    size_t i;
+    for (i = 0; i < s->nwins; i++)
+        free(s->wins[i].data);
+    s->nwins = 0;
+    s->open = 0;
+    free(s->q);
+    s->q = NULL;
+    s->known = 0;
+    s->ni = s->qn = s->pcount = 0;
+    s->pending = 0;
+    memset(&s->cmax, 0, sizeof s->cmax);
+    memset(&s->cmin, 0, sizeof s->cmin);
+    s->seen = 0;
+    s->varies = 0;
+}
+
+/* One pass over the file: read the response channel, correlate chunks of lc lags (threads at a
+ * time), hand r to se_sl_chunk in order. */
+static se_status se_pass(se_sl *s, SNDFILE *snd, const char *path, unsigned nch, unsigned ch,
+                         const se_xcorr *xc, se_xcorr_work *const *w, unsigned threads, size_t lc,
+                         se_error *err)
+{
+    size_t m = s->m, n = s->n, cap = threads * lc + m, have = 0, base = 0, readpos = 0, t;
+    double *x = NULL, *r = NULL, *inter = NULL;
+    se_status st = SE_OK;
+
+    if (sf_seek(snd, 0, SEEK_SET) != 0)
+        return se_fail(err, SE_ERR_IO, "%s: cannot rewind for another pass", path);
+    x = malloc(cap * sizeof *x);
+    r = malloc(threads * lc * sizeof *r);
+    inter = malloc((size_t)SE_STREAM_READ_FRAMES * nch * sizeof *inter);
+    if (x == NULL || r == NULL || inter == NULL) {
+        st = se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate chunk buffers of %zu samples", cap);
+        goto done;
+    }
+    while (base < n) {
+        size_t want = threads * lc + m - 1, nsub, lags;
+        int eof;
+        while (have < want && readpos < n) {
+            size_t take = want - have, j;
+            sf_count_t got;
+            if (take > SE_STREAM_READ_FRAMES)
+                take = SE_STREAM_READ_FRAMES;
+            if (take > n - readpos)
+                take = n - readpos;
+            got = sf_readf_double(snd, inter, (sf_count_t)take);
+            if (got <= 0) {
+                st = se_fail(err, SE_ERR_FORMAT, "%s: truncated: header says %zu frames, file holds %zu",
+                             path, n, readpos);
+                goto done;
+            }
+            for (j = 0; j < (size_t)got; j++) {
+                double v = inter[j * nch + ch];
+                if (!isfinite(v)) {
+                    st = se_fail(err, SE_ERR_DATA, "%s: sample %zu (channel %u) is %s", path,
+                                 readpos + j, ch, isnan(v) ? "NaN" : "infinite");
+                    goto done;
+                }
+                if (!s->pass0)
+                    se_clip_sample(s, readpos + j, v);
+                x[have + j] = v;
+            }
+            have += (size_t)got;
+            readpos += (size_t)got;
+        }
+        eof = readpos == n;
+        lags = eof ? have : have - (m - 1);
+        nsub = (lags + lc - 1) / lc;
+        if (nsub > threads)
+            nsub = threads;
+        {
+            se_worker wk[2];
+            pthread_t tid;
+            int spawned = 0;
+            for (t = 0; t < nsub; t++) {
+                size_t off = t * lc;
+                wk[t].xc = xc;
+                wk[t].w = w[t];
+                wk[t].x = x + off;
+                wk[t].nout = lags - off < lc ? lags - off : lc;
+                wk[t].n = have - off < wk[t].nout + m - 1 ? have - off : wk[t].nout + m - 1;
+                wk[t].r = r + off;
+            }
+            if (nsub == 2)
+                spawned = pthread_create(&tid, NULL, se_worker_run, &wk[1]) == 0;
+            se_worker_run(&wk[0]);
+            if (nsub == 2) {
+                if (spawned)
+                    pthread_join(tid, NULL);
+                else
+                    se_worker_run(&wk[1]); /* no thread available: same values serially */
+            }
+            for (t = 0; t < nsub; t++)
+                if (wk[t].st != SE_OK) {
+                    st = se_fail(err, wk[t].st, "%s", wk[t].err.message);
+                    goto done;
+                }
+            lags = 0;
+            for (t = 0; t < nsub; t++)
+                lags += wk[t].nout;
+        }
+        if ((st = se_sl_chunk(s, base, base + lags, r, err)) != SE_OK)
+            goto done;
+        memmove(x, x + lags, (have - lags) * sizeof *x);
+        have -= lags;
+        base += lags;
+    }
+    if (!s->pass0)
+        se_clip_close(s);
+done:
+    free(x);
+    free(r);
+    free(inter);
+    return st;
+}
+
+se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
+                           const se_stream_config *scfg_in, se_locate_result *res,
+                           se_stream_info *info, se_error *err)
+{
+    se_stream_config scfg;
+    se_locate_config cfg;
+    se_stream_info dummy;
+    SF_INFO sfi;
+    SNDFILE *snd = NULL;
+    se_sl s;
+    se_status st = SE_OK;
+    se_xcorr *xc = NULL;
+    se_xcorr_work *w[2] = {NULL, NULL};
+    se_acf *acf = NULL;
+    se_distmap *own_map = NULL;
+    const se_distmap *map;
+    double *ref = NULL, *pbuf_pulse = NULL;
+    se_peak *all = NULL;
+    size_t nall = 0, m, n, lc, step, i, dead = 0, maxp;
+    unsigned threads, nch;
+    double lag0 = 0.0, a0 = 0.0, sigma, beta, beta_crb, kthr = 0.0, thr = 0.0;
+    se_xcorr_config xcfg;
+
+    if (res == NULL)
+        return se_fail(err, SE_ERR_ARG, "stream locate: no result record");
+    memset(res, 0, sizeof *res);
+    memset(&s, 0, sizeof s);
+    if (info == NULL)
+        info = &dummy;
+    memset(info, 0, sizeof *info);
+    if (path == NULL || cfg_in == NULL)
+        return se_fail(err, SE_ERR_ARG, "stream locate: no file or no configuration");
+    cfg = *cfg_in;
+    if (scfg_in != NULL)
+        scfg = *scfg_in;
+    else
+        se_stream_config_init(&scfg);
+    threads = scfg.threads == 0 ? 2 : scfg.threads;
+    if (threads > 2)
+        return se_fail(err, SE_ERR_ARG, "stream locate: %u threads asked, 1 or 2 supported", threads);
+    if (cfg.quantity == SE_Q_ACCELERATION || cfg.quantity == SE_Q_DISPLACEMENT)
+        return se_fail(err, SE_ERR_ARG,
+                       "stream locate: %s responses need the whole record to become velocity; "
+                       "locate them without streaming",
+                       se_quantity_name(cfg.quantity));
+    if (cfg.reference_kind == SE_REF_SELF && scfg.pulse_channel == SE_STREAM_NO_CHANNEL)
+        return se_fail(err, SE_ERR_ARG,
+                       "stream locate: the self reference needs the whole record; give the pulse "
+                       "(a channel, a file or a shape)");
+    /* the checks of se_locate that need no data */
+    if (cfg.map == NULL && se_check_speed(cfg.speed_m_s, err) != SE_OK)
+        return err ? err->code : SE_ERR_RANGE;
+    if (!(cfg.speed_uncertainty >= 0.0) || cfg.speed_uncertainty >= 1.0)
+        return se_fail(err, SE_ERR_RANGE, "locate: speed uncertainty %g %% is not in [0, 100)",
+                       cfg.speed_uncertainty * 100.0);
+    if (!(cfg.false_alarms > 0.0) || cfg.false_alarms > 1000.0)
+        return se_fail(err, SE_ERR_RANGE, "locate: false-alarm target %g per record is not in (0, 1000]",
+                       cfg.false_alarms);
+    if (!(cfg.confidence > 0.0 && cfg.confidence < 1.0))
+        return se_fail(err, SE_ERR_RANGE, "locate: confidence %g is not in (0, 1)", cfg.confidence);
+    if (!(cfg.source_reflection >= -1.0 && cfg.source_reflection <= 1.0) ||
+        fabs(1.0 + cfg.source_reflection) < 1e-6)
+        return se_fail(err, SE_ERR_RANGE,
+                       "locate: source-end coefficient %g leaves nothing to measure at the sensor",
+                       cfg.source_reflection);
+
+    memset(&sfi, 0, sizeof sfi);
+    snd = sf_open(path, SFM_READ, &sfi);
+    if (snd == NULL) {
+        char msg[256];
+        snprintf(msg, sizeof msg, "%s", sf_strerror(NULL)); /* global in libsndfile: copy now */
+        return se_fail(err, SE_ERR_FORMAT, "%s: not a sound file libsndfile reads (%s); text tables "
+                                           "are not streamed", path, msg);
+    }
+    sf_command(snd, SFC_SET_SCALE_FLOAT_INT_READ, NULL, SF_FALSE);
+    if (sfi.channels < 1 || sfi.samplerate <= 0 || sfi.frames <= 0 || !sfi.seekable) {
+        st = se_fail(err, SE_ERR_FORMAT, "%s: header gives %d channels at %d Hz, %lld frames%s", path,
+                     sfi.channels, sfi.samplerate, (long long)sfi.frames,
+                     sfi.seekable ? "" : ", not seekable");
+        goto done;
+    }
+    {
+        SF_FORMAT_INFO fi;
+        memset(&fi, 0, sizeof fi);
+        fi.format = sfi.format & SF_FORMAT_TYPEMASK;
+        if (sf_command(NULL, SFC_GET_FORMAT_INFO, &fi, sizeof fi) == 0 && fi.name != NULL)
+            snprintf(info->format, sizeof info->format, "%s", fi.name);
+    }
+    nch = (unsigned)sfi.channels;
+    n = (size_t)sfi.frames;
+    info->frames = n;
+    info->channels = nch;
+    info->rate = (double)sfi.samplerate;
+    if (scfg.channel >= nch || (scfg.pulse_channel != SE_STREAM_NO_CHANNEL &&
+                                (scfg.pulse_channel < 0 || (unsigned)scfg.pulse_channel >= nch ||
+                                 (unsigned)scfg.pulse_channel == scfg.channel))) {
+        st = se_fail(err, SE_ERR_ARG, "%s: channel %u / pulse channel %d not usable with %u channel%s",
+                     path, scfg.channel, scfg.pulse_channel, nch, nch == 1 ? "" : "s");
+        goto done;
+    }
+    if (n < 16) {
+        st = se_fail(err, SE_ERR_DATA, "locate: the response has only %zu samples", n);
+        goto done;
+    }
+
+    /* Reference from the pulse channel: its support in the first pulse_window samples. */
+    if (scfg.pulse_channel != SE_STREAM_NO_CHANNEL) {
+        size_t pw = scfg.pulse_window ? scfg.pulse_window : SE_STREAM_PULSE_WINDOW, got = 0, b, e;
+        double *inter = malloc((size_t)SE_STREAM_READ_FRAMES * nch * sizeof *inter);
+        if (pw > n)
+            pw = n;
+        pbuf_pulse = malloc(pw * sizeof *pbuf_pulse);
+        if (inter == NULL || pbuf_pulse == NULL) {
+            free(inter);
+            st = se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate %zu samples of the pulse channel", pw);
+            goto done;
+        }
+        while (got < pw) {
+            size_t take = pw - got < SE_STREAM_READ_FRAMES ? pw - got : SE_STREAM_READ_FRAMES, j;
+            sf_count_t k = sf_readf_double(snd, inter, (sf_count_t)take);
+            if (k <= 0)
+                break;
+            for (j = 0; j < (size_t)k; j++)
+                pbuf_pulse[got + j] = inter[j * nch + (unsigned)scfg.pulse_channel];
+            got += (size_t)k;
+        }
+        free(inter);
+        if (got < pw) {
+            st = se_fail(err, SE_ERR_FORMAT, "%s: truncated: header says %zu frames, file holds %zu",
+                         path, n, got);
+            goto done;
+        }
+        for (i = 0; i < pw; i++)
+            if (!isfinite(pbuf_pulse[i])) {
+                st = se_fail(err, SE_ERR_DATA, "%s: sample %zu (channel %d) is not finite", path, i,
+                             scfg.pulse_channel);
+                goto done;
+            }
+        if ((st = se_pulse_support(pbuf_pulse, pw, &b, &e, err)) != SE_OK) {
+            char why[SE_ERROR_MESSAGE_SIZE];
+            snprintf(why, sizeof why, "%s", err ? err->message : "no pulse");
+            se_fail(err, st, "%s channel %d: %s", path, scfg.pulse_channel, why);
+            goto done;
+        }
+        memmove(pbuf_pulse, pbuf_pulse + b, (e - b) * sizeof *pbuf_pulse);
+        cfg.reference = pbuf_pulse;
+        cfg.reference_length = e - b;
+        cfg.reference_offset = b;
+        cfg.reference_kind = SE_REF_CHANNEL;
+    }
+    if (cfg.reference == NULL || cfg.reference_length < 3) {
+        st = se_fail(err, SE_ERR_ARG, "locate: the reference pulse has fewer than 3 samples");
+        goto done;
+    }
+    m = cfg.reference_length;
+    if (m >= n) {
+        st = se_fail(err, SE_ERR_DATA,
+                     "the response (%zu samples) is not longer than the reference pulse (%zu samples)",
+                     n, m);
+        goto done;
+    }
+    ref = se_calloc(m, sizeof *ref, "reference", err);
+    if (ref == NULL) {
+        st = SE_ERR_NOMEM;
+        goto done;
+    }
+    memcpy(ref, cfg.reference, m * sizeof *ref);
+    map = cfg.map;
+    if (map == NULL) {
+        own_map = se_distmap_create_uniform(cfg.speed_m_s, cfg.speed_uncertainty, INFINITY, err);
+        if (own_map == NULL) {
+            st = err ? err->code : SE_ERR_NOMEM;
+            goto done;
+        }
+        map = own_map;
+    }
+
+    memset(&xcfg, 0, sizeof xcfg);
+    xcfg.wisdom_path = scfg.wisdom_path;
+    xcfg.measure = scfg.measure;
+    xc = se_xcorr_create_with(ref, m, &xcfg, err);
+    if (xc == NULL) {
+        st = err ? err->code : SE_ERR_NOMEM;
+        goto done;
+    }
+    info->plan = se_xcorr_plan_source(xc);
+    for (i = 0; i < threads; i++)
+        if ((w[i] = se_xcorr_work_create(xc, err)) == NULL) {
+            st = err ? err->code : SE_ERR_NOMEM;
+            goto done;
+        }
+    acf = se_acf_create(ref, m, err);
+    if (acf == NULL) {
+        st = err ? err->code : SE_ERR_NOMEM;
+        goto done;
+    }
+    step = se_xcorr_step(xc);
+    lc = scfg.block ? scfg.block : SE_STREAM_DEFAULT_BLOCK;
+    lc = lc < step ? step : lc / step * step;
+
+    /* Reaches: se_detect's margin, the core around candidates, and what is kept before one. */
+    s.cfg = &cfg;
+    s.n = n;
+    s.m = m;
+    s.fa = cfg.false_alarms;
+    s.ext = se_acf_half_length(acf);
+    s.win = se_acf_extent(acf, 1e-6);
+    if (s.win < 16)
+        s.win = 16;
+    s.mg = s.ext + s.win + 2;
+    s.reach = 2 * s.ext + s.win + 4;
+    s.left = s.reach + s.mg;
+    s.ringcap = s.left + 2;
+    s.ring = malloc(s.ringcap * sizeof *s.ring);
+    s.plen = SE_STREAM_PROVISIONAL;
+    s.pbuf = malloc(s.plen * sizeof *s.pbuf);
+    if (s.ring == NULL || s.pbuf == NULL) {
+        st = se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate the history of %zu lags", s.ringcap);
+        goto done;
+    }
+
+    /* Where the direct arrival is searched (se_locate's rule). */
+    if (cfg.reference_offset != SIZE_MAX) {
+        s.lo = cfg.reference_offset > m ? cfg.reference_offset - m : 0;
+        s.hi = cfg.reference_offset + 2 * m + 1 < n ? cfg.reference_offset + 2 * m + 1 : n;
+        if (s.lo >= s.hi) {
+            st = se_fail(err, SE_ERR_NOTFOUND,
+                         "the outgoing pulse does not appear in the response (no correlation peak)");
+            goto done;
+        }
+    } else {
+        /* no time base: a pass for the first lag reaching half the largest |r| */
+        s.pass0 = 1;
+        info->passes++;
+        if ((st = se_pass(&s, snd, path, nch, scfg.channel, xc, w, threads, lc, err)) != SE_OK)
+            goto done;
+        s.pass0 = 0;
+        for (i = s.pm_head; i < s.pm_n; i++)
+            if (s.pm_v[i] >= 0.5 * s.gmax)
+                break;
+        if (i == s.pm_n || !(s.gmax > 0.0)) {
+            st = se_fail(err, SE_ERR_NOTFOUND,
+                         "the outgoing pulse does not appear in the response (no correlation peak)");
+            goto done;
+        }
+        s.lo = s.pm_i[i];
+        s.hi = s.lo + m + 1 < n ? s.lo + m + 1 : n;
+    }
+    {
+        size_t h = SE_STREAM_DIRECT_HALF > s.left + 2 ? SE_STREAM_DIRECT_HALF : s.left + 2;
+        s.d0 = s.lo > h ? s.lo - h : 0;
+        s.d1 = n - s.hi > h ? s.hi + h : n;
+        s.dbuf = malloc((s.d1 - s.d0) * sizeof *s.dbuf);
+        if (s.dbuf == NULL) {
+            st = se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate %zu lags", s.d1 - s.d0);
+            goto done;
+        }
+    }
+
+    for (;;) {
+        se_noise nz;
+        size_t cnt;
+        s.used = scfg.noise_samples ? scfg.noise_samples : SE_STREAM_DEFAULT_NOISE;
+        info->passes++;
+        if ((st = se_pass(&s, snd, path, nch, scfg.channel, xc, w, threads, lc, err)) != SE_OK)
+            goto done;
+        if (!s.varies) {
+            st = se_fail(err, SE_ERR_DATA, "the response is constant (every sample is %.6g)", s.first_v);
+            goto done;
+        }
+        se_clip_result(&s, res);
+        if (!s.known) { /* cannot happen: hi <= n */
+            st = se_fail(err, SE_ERR_NOTFOUND, "the outgoing pulse does not appear in the response");
+            goto done;
+        }
+        st = se_refine_peak(s.dbuf, s.d1 - s.d0, s.k0 - s.d0, 0, &lag0, &a0, err);
+        if (st != SE_OK)
+            goto done;
+        lag0 += (double)s.d0;
+        if (!(fabs(a0) > 0.0)) {
+            st = se_fail(err, SE_ERR_NOTFOUND, "the outgoing pulse does not appear in the response");
+            goto done;
+        }
+        if (s.end <= s.start + 16) {
+            st = se_fail(err, SE_ERR_DATA,
+                         "the record ends %.6g s after the direct arrival: too short to search for "
+                         "echoes",
+                         (double)(n - s.k0) / info->rate);
+            goto done;
+        }
+        /* The pairs (r[at], r[at+1]) read with stride 2 give se_noise_mad the very values, in the
+         * same order, that it takes from the whole r. */
+        cnt = s.qn;
+        st = se_noise_mad(s.q, 0, cnt, s.used, &nz, err);
+        if (st != SE_OK)
+            goto done;
+        sigma = nz.sigma;
+        beta_crb = se_acf_rms_bandwidth(acf);
+        beta = (isfinite(nz.beta) && nz.beta > 0.0) ? nz.beta : beta_crb;
+        if (!(sigma >= SE_STREAM_NOISE_FLOOR * fabs(a0))) {
+            sigma = SE_STREAM_NOISE_FLOOR * fabs(a0);
+            res->noise_floored = 1;
+        }
+        kthr = se_rice_k((double)(s.end - s.start), beta, cfg.false_alarms);
+        thr = kthr * sigma;
+        if (s.pre <= thr)
+            break;
+        /* the noise fell along the record below the provisional estimate: again, exactly */
+        s.pre_fixed = thr;
+        res->noise_floored = 0;
+        se_sl_reset(&s);
+    }
+    if (fabs(a0) < 2.0 * thr) {
+        st = se_fail(err, SE_ERR_NOTFOUND,
+                     "the outgoing pulse does not stand above the noise of the matched filter (peak "
+                     "%.3g, threshold %.3g): wrong channel or wrong reference?",
+                     fabs(a0), thr);
+        goto done;
+    }
+    {
+        double level = 0.5 * thr / fabs(a0);
+        size_t ext = level < 1.0 ? se_acf_extent(acf, level) : 0;
+        dead = ext > m ? ext : m;
+    }
+    if (s.k0 + dead >= s.end) {
+        st = se_fail(err, SE_ERR_DATA, "the record ends inside the dead zone");
+        goto done;
+    }
+
+    /* CLEAN on each window: windows lie more than the acf support apart, so each is independent. */
+    maxp = cfg.max_events ? cfg.max_events : 64;
+    for (i = 0; i < s.nwins; i++) {
+        se_window *wd = &s.wins[i];
+        se_detect_config dc;
+        se_peak direct, *pk = NULL;
+        size_t np = 0, j, a = wd->a, ds = s.k0 + dead;
+        size_t s0 = wd->cand_first > s.reach ? wd->cand_first - s.reach : 0;
+        size_t s1 = wd->cand_last + s.reach + 1;
+        info->window_samples += wd->len;
+        if (s0 < ds)
+            s0 = ds;
+        if (s1 > s.end)
+            s1 = s.end;
+        if (s1 > a + wd->len)
+            s1 = a + wd->len;
+        if (s0 >= s1)
+            continue;
+        direct.lag = lag0 - (double)a;
+        direct.amplitude = a0;
+        direct.index = 0;
+        memset(&dc, 0, sizeof dc);
+        dc.start = s0 - a;
+        dc.end = s1 - a;
+        dc.threshold = thr;
+        dc.max_peaks = maxp;
+        dc.acf = acf;
+        dc.known = &direct;
+        dc.n_known = 1;
+        st = se_detect(wd->data, wd->len, &dc, &pk, &np, err);
+        if (st != SE_OK)
+            goto done;
+        if (np > 0) {
+            se_peak *na = realloc(all, (nall + np) * sizeof *na);
+            if (na == NULL) {
+                free(pk);
+                st = se_fail(err, SE_ERR_NOMEM, "stream: cannot grow the peak list");
+                goto done;
+            }
+            all = na;
+            for (j = 0; j < np; j++) {
+                all[nall + j] = pk[j];
+                all[nall + j].lag += (double)a;
+                all[nall + j].index += a;
+            }
+            nall += np;
+        }
+        free(pk);
+    }
+    info->windows = s.nwins;
+    if (nall > maxp) {
+        /* keep the largest maxp, back in lag order */
+        qsort(all, nall, sizeof *all, se_peak_by_size);
+        nall = maxp;
+        qsort(all, nall, sizeof *all, se_peak_by_lag);
+    }
+    {
+        se_locate_stage sg;
+        memset(&sg, 0, sizeof sg);
+        sg.cfg = &cfg;
+        sg.map = map;
+        sg.rate_hz = info->rate;
+        sg.lag0 = lag0;
+        sg.a0 = a0;
+        sg.k0 = s.k0;
+        sg.m = m;
+        sg.dead = dead;
+        sg.end = s.end;
+        sg.sigma = sigma;
+        sg.kthr = kthr;
+        sg.thr = thr;
+        sg.beta_crb = beta_crb;
+        sg.mainlobe_half_width = se_acf_mainlobe_half_width(acf);
+        st = se_locate_events(&sg, all, nall, res, err);
+    }
+
+done:
+    se_sl_reset(&s);
+    free(s.wins);
+    free(s.ring);
+    free(s.pbuf);
+    free(s.dbuf);
+    free(s.pm_i);
+    free(s.pm_v);
+    free(all);
+    se_acf_destroy(acf);
+    se_xcorr_work_destroy(w[0]);
+    se_xcorr_work_destroy(w[1]);
+    se_xcorr_destroy(xc);
+    se_distmap_destroy(own_map);
+    free(ref);
+    free(pbuf_pulse);
+    if (snd != NULL)
+        sf_close(snd);
+    if (st != SE_OK)
+        se_locate_result_free(res);
+    return st;
+}

@@ -1,0 +1,404 @@
+/* strandecho tests: se_locate_stream against se_locate on files that fit in memory. The oracle is
+ * the whole-record pipeline itself (same events, delays within 1e-9 s; lags bit for bit with the
+ * default FFTW_ESTIMATE plans) across block sizes (one step, a block that leaves a final partial
+ * chunk, a block longer than the file), one and two threads, a pulse channel (known time base) and a
+ * separate reference (no time base: the extra pass), a record whose noise falls along it (the
+ * provisional pre-threshold is too high: the exact rerun), clipped runs, and the refusals.
+ * Synthetic signals: Gaussian-windowed sine bursts at known fractional delays plus Gaussian noise
+ * from a fixed seed (common practice, no source). */
+#include <math.h>
+#include <stdint.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "strandecho/detect.h"
+#include "strandecho/locate.h"
+#include "strandecho/recording.h"
+#include "strandecho/stream.h"
+#include "testutil.h"
+
+#define TS_FS 1.0e6
+#define TS_V 3000.0
+#define TS_PI 3.14159265358979323846
+
+/* max_events of both runs: the glitches of the clipping case leave many CLEAN residues, and past
+ * the cap the two pipelines keep different subsets (stream.h) */
+static size_t ts_max_events = 64;
+
+typedef struct ts_echo {
+    double t;   /* start of the burst, samples */
+    double a;   /* amplitude */
+} ts_echo;
+
+static double ts_burst(double u);
+static double ts_gauss(uint64_t *state);
+static int ts_write(const char *path, size_t n, const ts_echo *e, size_t ne, double noise,
+                    double noise_late, double clip, uint64_t seed);
+static int ts_whole(const char *path, int use_channel, se_locate_result *res, double **ref,
+                    size_t *m);
+static void ts_compare(const se_locate_result *a, const se_locate_result *b, int exact,
+                       const char *what);
+static void test_blocks_and_threads(void);
+static void test_no_time_base(void);
+static void test_noise_falls(void);
+static void test_clipping(void);
+static void test_refusals(void);
+
+/* A 40-sample burst: 8 cycles of 0.1 cycles/sample under a Gaussian window. */
+static double ts_burst(double u)
+{
+    double c = u - 20.0;
+    if (u < 0.0 || u > 40.0)
+        return 0.0;
+    return exp(-c * c / (2.0 * 7.0 * 7.0)) * sin(2.0 * TS_PI * 0.1 * c);
+}
+
+/* xorshift64* uniform pair -> Box-Muller normal */
+static double ts_gauss(uint64_t *state)
+{
+    double u1, u2;
+    *state ^= *state >> 12;
+    *state ^= *state << 25;
+    *state ^= *state >> 27;
+    u1 = ((double)((*state * 2685821657736338717ULL) >> 11) + 0.5) / 9007199254740992.0;
+    *state ^= *state >> 12;
+    *state ^= *state << 25;
+    *state ^= *state >> 27;
+    u2 = ((double)((*state * 2685821657736338717ULL) >> 11) + 0.5) / 9007199254740992.0;
+    return sqrt(-2.0 * log(u1)) * cos(2.0 * TS_PI * u2);
+}
+
+/* Two channels, float WAV: the response (echoes + noise, noise_late after n/2, runs at +-clip
+ * when clip > 0) and the injected pulse (the first echo alone, a little noise). */
+static int ts_write(const char *path, size_t n, const ts_echo *e, size_t ne, double noise,
+                    double noise_late, double clip, uint64_t seed)
+{
+    double *a = calloc(n, sizeof *a), *b = calloc(n, sizeof *b);
+    const double *ch[2];
+    size_t i, k;
+    uint64_t st = seed;
+    se_error err;
+    int ok;
+    if (a == NULL || b == NULL) {
+        free(a);
+        free(b);
+        return 0;
+    }
+    for (k = 0; k < ne; k++) {
+        size_t i0 = e[k].t > 1.0 ? (size_t)e[k].t - 1 : 0;
+        for (i = i0; i < n && i < i0 + 43; i++) {
+            double v = e[k].a * ts_burst((double)i - e[k].t);
+            a[i] += v;
+            if (k == 0)
+                b[i] += v;
+        }
+    }
+    for (i = 0; i < n; i++) {
+        a[i] += (i < n / 2 ? noise : noise_late) * ts_gauss(&st);
+        b[i] += 1e-4 * ts_gauss(&st);
+    }
+    if (clip > 0.0) {
+        /* flat runs at the record's extremes (a converter at full scale) before the outgoing
+         * pulse, so that their correlation stays out of the searched lags: 8 and 6 samples
+         * count, a run of 3 does not */
+        for (i = 0; i < 8; i++)
+            a[200 + i] = clip;
+        for (i = 0; i < 6; i++)
+            a[500 + i] = -clip;
+        for (i = 0; i < 3; i++)
+            a[700 + i] = clip;
+    }
+    ch[0] = a;
+    ch[1] = b;
+    se_error_clear(&err);
+    ok = se_recording_write(path, ch, 2, n, TS_FS, &err) == SE_OK;
+    if (!ok)
+        printf("write %s: %s\n", path, err.message);
+    free(a);
+    free(b);
+    return ok;
+}
+
+/* se_locate on the whole file read into memory, reference from the pulse channel (use_channel) or
+ * the pulse channel's support as a separate reference without time base. */
+static int ts_whole(const char *path, int use_channel, se_locate_result *res, double **ref,
+                    size_t *m)
+{
+    se_error err;
+    se_recording *rec;
+    se_locate_config cfg;
+    size_t b, e;
+    int ok;
+    se_error_clear(&err);
+    rec = se_recording_read(path, NULL, &err);
+    if (!CHECK(rec != NULL))
+        return 0;
+    se_locate_config_init(&cfg);
+    cfg.speed_m_s = TS_V;
+    cfg.max_events = ts_max_events;
+    if (!CHECK(se_pulse_support(se_recording_channel(rec, 1), rec->frames, &b, &e, &err) == SE_OK)) {
+        se_recording_free(rec);
+        return 0;
+    }
+    *m = e - b;
+    *ref = malloc(*m * sizeof **ref);
+    if (*ref == NULL) {
+        se_recording_free(rec);
+        return 0;
+    }
+    memcpy(*ref, se_recording_channel(rec, 1) + b, *m * sizeof **ref);
+    cfg.reference = *ref;
+    cfg.reference_length = *m;
+    cfg.reference_offset = use_channel ? b : SIZE_MAX;
+    cfg.reference_kind = use_channel ? SE_REF_CHANNEL : SE_REF_FILE;
+    ok = se_locate(se_recording_channel(rec, 0), rec->frames, rec->rate, &cfg, res, &err) == SE_OK;
+    if (!ok)
+        printf("se_locate: %s\n", err.message);
+    se_recording_free(rec);
+    return CHECK(ok);
+}
+
+static void ts_compare(const se_locate_result *a, const se_locate_result *b, int exact,
+                       const char *what)
+{
+    size_t i;
+    if (!CHECK(a->n_events == b->n_events)) {
+        printf("  %s: %zu events whole, %zu streamed\n", what, a->n_events, b->n_events);
+        return;
+    }
+    for (i = 0; i < a->n_events; i++) {
+        CHECK_CLOSE(b->events[i].delay_s, a->events[i].delay_s, 1e-9, what);
+        CHECK_CLOSE(b->events[i].reflection, a->events[i].reflection, 1e-9, what);
+        CHECK(b->events[i].multiple == a->events[i].multiple);
+        if (exact && !CHECK(b->events[i].lag_samples == a->events[i].lag_samples))
+            printf("  %s: event %zu lag %.17g whole, %.17g streamed\n", what, i,
+                   a->events[i].lag_samples, b->events[i].lag_samples);
+    }
+    CHECK_CLOSE(b->t0_s, a->t0_s, 1e-12, what);
+    CHECK_CLOSE(b->noise_level, a->noise_level, exact ? 0.0 : 1e-9 * a->noise_level, what);
+    CHECK_CLOSE(b->threshold, a->threshold, exact ? 0.0 : 1e-9 * a->threshold, what);
+    CHECK(b->noise_floored == a->noise_floored);
+    CHECK(b->clipped_samples == a->clipped_samples);
+    CHECK(b->first_clipped == a->first_clipped);
+    CHECK(b->n_clip_runs == a->n_clip_runs);
+    CHECK(b->direct_clipped == a->direct_clipped);
+    CHECK_CLOSE(b->dead_zone_s, a->dead_zone_s, 0.0, what);
+    CHECK_CLOSE(b->record_range_s, a->record_range_s, 0.0, what);
+    CHECK(b->reference_length == a->reference_length);
+}
+
+static const ts_echo ts_echoes[] = {
+    {1000.0, 1.0},      /* the outgoing pulse */
+    {4321.37, 0.30},    /* 3.33 ms after it */
+    {4391.9, -0.20},    /* overlapping the previous one's tail */
+    {60000.25, 0.05},
+    {150001.5, -0.02},
+    {199960.0, 0.04},   /* near the end: its window is cut by the record */
+};
+
+static void test_blocks_and_threads(void)
+{
+    char path[4096];
+    se_locate_result whole, str;
+    double *ref = NULL;
+    size_t m = 0, k;
+    se_error err;
+    /* n = 200003: not a multiple of any step; block 2^20 is longer than the file */
+    const size_t blocks[] = {1, 4096, 65536, 100000, (size_t)1 << 20};
+    se_test_binary_path(path, sizeof path, "stream_a.wav");
+    if (!CHECK(ts_write(path, 200003, ts_echoes, 6, 1e-3, 1e-3, 0.0, 7)))
+        return;
+    if (!ts_whole(path, 1, &whole, &ref, &m))
+        return;
+    CHECK(whole.n_events == 5);
+    for (k = 0; k < sizeof blocks / sizeof blocks[0]; k++) {
+        unsigned t;
+        for (t = 1; t <= 2; t++) {
+            se_stream_config sc;
+            se_locate_config cfg;
+            se_stream_info info;
+            char what[96];
+            se_stream_config_init(&sc);
+            sc.pulse_channel = 1;
+            sc.block = blocks[k];
+            sc.threads = t;
+            se_locate_config_init(&cfg);
+            cfg.speed_m_s = TS_V;
+            se_error_clear(&err);
+            snprintf(what, sizeof what, "block %zu, %u thread%s", blocks[k], t, t > 1 ? "s" : "");
+            if (!CHECK(se_locate_stream(path, &cfg, &sc, &str, &info, &err) == SE_OK)) {
+                printf("  %s: %s\n", what, err.message);
+                continue;
+            }
+            CHECK(info.passes == 1);
+            CHECK(info.frames == 200003 && info.channels == 2);
+            ts_compare(&whole, &str, 1, what);
+            se_locate_result_free(&str);
+        }
+    }
+    se_locate_result_free(&whole);
+    free(ref);
+    remove(path);
+}
+
+/* A reference without a time base: the first lag at half the largest |r| needs a pass of its own. */
+static void test_no_time_base(void)
+{
+    char path[4096];
+    se_locate_result whole, str;
+    double *ref = NULL;
+    size_t m = 0;
+    se_error err;
+    se_stream_config sc;
+    se_locate_config cfg;
+    se_stream_info info;
+    se_test_binary_path(path, sizeof path, "stream_b.wav");
+    if (!CHECK(ts_write(path, 120000, ts_echoes, 5, 5e-3, 5e-3, 0.0, 11)))
+        return;
+    if (!ts_whole(path, 0, &whole, &ref, &m))
+        return;
+    se_stream_config_init(&sc);
+    sc.block = 30000;
+    se_locate_config_init(&cfg);
+    cfg.speed_m_s = TS_V;
+    cfg.reference = ref;
+    cfg.reference_length = m;
+    cfg.reference_kind = SE_REF_FILE;
+    se_error_clear(&err);
+    if (CHECK(se_locate_stream(path, &cfg, &sc, &str, &info, &err) == SE_OK)) {
+        CHECK(info.passes == 2);
+        ts_compare(&whole, &str, 1, "no time base");
+        se_locate_result_free(&str);
+    } else {
+        printf("  %s\n", err.message);
+    }
+    se_locate_result_free(&whole);
+    free(ref);
+    remove(path);
+}
+
+/* Loud noise in the first half, ten times quieter after: the provisional pre-threshold from the
+ * first lags is above the final threshold, so the pass is redone with the exact one. */
+static void test_noise_falls(void)
+{
+    char path[4096];
+    se_locate_result whole, str;
+    double *ref = NULL;
+    size_t m = 0;
+    se_error err;
+    se_stream_config sc;
+    se_locate_config cfg;
+    se_stream_info info;
+    const ts_echo e[] = {{1000.0, 1.0}, {30000.4, 0.3}, {150000.7, 0.01}};
+    se_test_binary_path(path, sizeof path, "stream_c.wav");
+    if (!CHECK(ts_write(path, 200000, e, 3, 2e-2, 1e-3, 0.0, 13)))
+        return;
+    if (!ts_whole(path, 1, &whole, &ref, &m))
+        return;
+    se_stream_config_init(&sc);
+    sc.pulse_channel = 1;
+    se_locate_config_init(&cfg);
+    cfg.speed_m_s = TS_V;
+    se_error_clear(&err);
+    if (CHECK(se_locate_stream(path, &cfg, &sc, &str, &info, &err) == SE_OK)) {
+        CHECK(info.passes == 2);
+        ts_compare(&whole, &str, 1, "noise falls");
+        se_locate_result_free(&str);
+    } else {
+        printf("  %s\n", err.message);
+    }
+    se_locate_result_free(&whole);
+    free(ref);
+    remove(path);
+}
+
+/* Clipped runs at both extremes: same count, first sample, runs and flags as the whole-record
+ * scan (se_locate's rule: 5 or more equal samples at the maximum or minimum). */
+static void test_clipping(void)
+{
+    char path[4096];
+    se_locate_result whole, str;
+    double *ref = NULL;
+    size_t m = 0;
+    se_error err;
+    se_stream_config sc;
+    se_locate_config cfg;
+    se_stream_info info;
+    const ts_echo e[] = {{1000.0, 1.0}, {9000.0, 0.5}, {50000.2, 0.2}};
+    se_test_binary_path(path, sizeof path, "stream_d.wav");
+    if (!CHECK(ts_write(path, 80000, e, 3, 1e-3, 1e-3, 1.5, 17)))
+        return;
+    ts_max_events = 4096;
+    if (!ts_whole(path, 1, &whole, &ref, &m))
+        return;
+    CHECK(whole.clipped_samples == 14 && whole.n_clip_runs == 2); /* 8 + 6, the run of 3 not */
+    se_stream_config_init(&sc);
+    sc.pulse_channel = 1;
+    sc.block = 5000;
+    se_locate_config_init(&cfg);
+    cfg.speed_m_s = TS_V;
+    cfg.max_events = ts_max_events;
+    se_error_clear(&err);
+    if (CHECK(se_locate_stream(path, &cfg, &sc, &str, &info, &err) == SE_OK)) {
+        size_t i;
+        ts_compare(&whole, &str, 1, "clipping");
+        for (i = 0; i < whole.n_clip_runs && i < str.n_clip_runs; i++)
+            CHECK(whole.clip_runs[i][0] == str.clip_runs[i][0] &&
+                  whole.clip_runs[i][1] == str.clip_runs[i][1]);
+        for (i = 0; i < whole.n_events && i < str.n_events; i++)
+            CHECK(whole.events[i].clipped == str.events[i].clipped);
+        se_locate_result_free(&str);
+    } else {
+        printf("  %s\n", err.message);
+    }
+    se_locate_result_free(&whole);
+    free(ref);
+    remove(path);
+    ts_max_events = 64;
+}
+
+static void test_refusals(void)
+{
+    char path[4096];
+    se_locate_result str;
+    se_error err;
+    se_stream_config sc;
+    se_locate_config cfg;
+    se_test_binary_path(path, sizeof path, "stream_e.wav");
+    if (!CHECK(ts_write(path, 20000, ts_echoes, 2, 1e-3, 1e-3, 0.0, 19)))
+        return;
+    se_stream_config_init(&sc);
+    se_locate_config_init(&cfg);
+    cfg.speed_m_s = TS_V;
+    se_error_clear(&err);
+    /* self reference: needs the whole record */
+    CHECK(se_locate_stream(path, &cfg, &sc, &str, NULL, &err) == SE_ERR_ARG);
+    CHECK(strstr(err.message, "self reference") != NULL);
+    sc.pulse_channel = 1;
+    cfg.quantity = SE_Q_ACCELERATION;
+    CHECK(se_locate_stream(path, &cfg, &sc, &str, NULL, &err) == SE_ERR_ARG);
+    cfg.quantity = SE_Q_VELOCITY;
+    sc.pulse_channel = 0; /* the response channel itself */
+    CHECK(se_locate_stream(path, &cfg, &sc, &str, NULL, &err) == SE_ERR_ARG);
+    sc.pulse_channel = 1;
+    sc.threads = 3;
+    CHECK(se_locate_stream(path, &cfg, &sc, &str, NULL, &err) == SE_ERR_ARG);
+    sc.threads = 1;
+    CHECK(se_locate_stream("/nonexistent/x.wav", &cfg, &sc, &str, NULL, &err) == SE_ERR_FORMAT);
+    CHECK(strstr(err.message, "/nonexistent/x.wav") != NULL);
+    CHECK(se_locate_stream(path, &cfg, &sc, &str, NULL, &err) == SE_OK);
+    CHECK(str.n_events == 1);
+    se_locate_result_free(&str);
+    remove(path);
+}
+
+int main(void)
+{
+    test_blocks_and_threads();
+    test_no_time_base();
+    test_noise_falls();
+    test_clipping();
+    test_refusals();
+    return se_test_done("test_stream");
+}
