@@ -10,12 +10,15 @@
 #include "commands.h"
 #include "strandecho/caution.h"
 #include "strandecho/digest.h"
+#include "strandecho/eventcsv.h"
 #include "strandecho/jsonout.h"
 #include "strandecho/line.h"
 #include "strandecho/locate.h"
 #include "strandecho/output.h"
+#include "strandecho/plot.h"
 #include "strandecho/pulse.h"
 #include "strandecho/recording.h"
+#include "strandecho/report.h"
 #include "strandecho/units.h"
 
 static const char se_locate_usage[] =
@@ -51,8 +54,17 @@ static const char se_locate_usage[] =
     "  --max-events N           at most N events (default 64)\n"
     "Output:\n"
     "  --json PATH              write the result as JSON (- for standard output)\n"
-    "  --units m|ft             distances in the table (JSON stays SI)\n"
-    "  --quiet, --verbose\n";
+    "  --plot FILE              the reflectogram: .png, .svg or .pdf by the extension\n"
+    "  --plot-size WxH          plot size, pixels (PNG) or points (SVG, PDF) (default 1200x700)\n"
+    "  --report FILE.html       a self-contained HTML report (plot, findings, inputs, cautions)\n"
+    "  --csv FILE               the events as CSV for spreadsheets (- for standard output)\n"
+    "  --title TEXT             title of the plot and the report\n"
+    "  --units m|ft             distances in the table, plot and report (JSON and CSV stay SI)\n"
+    "  --quiet, --verbose\n"
+    "\n"
+    "exit codes: 0 success; 1 internal failure; 2 bad command line or option value; 3 input file\n"
+    "unreadable or malformed; 4 data cannot give a result (no pulse, too short, NaN...); 5 output\n"
+    "cannot be written; 6 out of memory.\n";
 
 static void se_print_table(const se_locate_result *res, const se_recording *rec, unsigned ch,
                            const char *refdesc, const se_speed *sp, double fa, double conf,
@@ -142,6 +154,57 @@ static int se_load_reference(const char *pulse, unsigned long pulse_channel, con
     }
 }
 
+/* The plot, the HTML report and the CSV of one located recording. */
+static int se_locate_outputs(const se_locate_result *res, const se_run_info *info, const se_line *line,
+                             const se_expected_event *exp, size_t nexp, const se_distmap *map,
+                             const char *plot, double w, double h, const char *report,
+                             const char *csv, const char *title, int feet, const char *refdesc)
+{
+    se_error err;
+    se_plot_data pd;
+    se_error_clear(&err);
+    se_plot_data_init(&pd);
+    pd.trace = res->trace;
+    pd.n = res->trace_length;
+    pd.rate_hz = res->rate_hz;
+    pd.map = map;
+    pd.result = res;
+    pd.line = line;
+    pd.expected = exp;
+    pd.n_expected = nexp;
+    pd.title = title;
+    if (pd.title == NULL)
+        pd.title = strrchr(info->input_file, '/') != NULL ? strrchr(info->input_file, '/') + 1
+                                                          : info->input_file;
+    pd.units = feet ? SE_PLOT_FEET : SE_PLOT_METRES;
+    if (plot != NULL && se_plot_write(&pd, plot, SE_PLOT_AUTO, w, h, &err) != SE_OK)
+        return se_cli_fail_err(&err, 1);
+    if (report != NULL) {
+        se_report rp;
+        se_report_line rl;
+        se_report_param par[1] = {{"reference", refdesc}};
+        se_report_init(&rp);
+        se_report_line_init(&rl);
+        rl.result = res;
+        rl.info = info;
+        rl.line = line;
+        rl.expected = exp;
+        rl.n_expected = nexp;
+        rl.plot = &pd;
+        rl.params = par;
+        rl.n_params = 1;
+        rp.title = title;
+        rp.units = pd.units;
+        rp.lines = &rl;
+        rp.n_lines = 1;
+        if (se_report_write(&rp, report, &err) != SE_OK)
+            return se_cli_fail_err(&err, 1);
+    }
+    if (csv != NULL && se_events_csv_write(res, csv, &err) != SE_OK)
+        return se_cli_fail_err(&err, 1);
+    return SE_EXIT_OK;
+}
+
 static int se_write_text(const char *path, const char *text)
 {
     se_error err;
@@ -170,6 +233,9 @@ int se_cmd_locate(int argc, char **argv)
     se_error err;
     const char *path = NULL, *pulse = NULL, *json = NULL, *quantity = NULL, *v;
     const char *source_end = NULL, *units = "m", *line_path = NULL;
+    const char *plot = NULL, *report = NULL, *csv = NULL, *title = NULL, *plot_size = NULL;
+    double plot_w = 1200.0, plot_h = 700.0;
+    se_run_info info;
     se_line *line = NULL;
     se_expected_event *exp = NULL;
     size_t nexp = 0;
@@ -206,6 +272,11 @@ int se_cmd_locate(int argc, char **argv)
         SE_TAKE("--source-end", source_end)
         SE_TAKE("--units", units)
         SE_TAKE("--line", line_path)
+        SE_TAKE("--plot", plot)
+        SE_TAKE("--plot-size", plot_size)
+        SE_TAKE("--report", report)
+        SE_TAKE("--csv", csv)
+        SE_TAKE("--title", title)
         if ((got = se_cli_value(&c, "--channel", &v)) != 0) {
             if (got < 0 || se_cli_uint("--channel", v, 1, 65535, &channel) != 0)
                 return SE_EXIT_USAGE;
@@ -264,6 +335,21 @@ int se_cmd_locate(int argc, char **argv)
         return se_cli_fail(SE_EXIT_USAGE, "give the reference once: --pulse or --pulse-channel");
     if (strcmp(units, "m") != 0 && strcmp(units, "ft") != 0)
         return se_cli_fail(SE_EXIT_USAGE, "--units: '%s' is not m or ft", units);
+    if (plot != NULL) {
+        se_plot_format pf;
+        if (se_plot_format_from_path(plot, &pf, &err) != SE_OK)
+            return se_cli_fail(SE_EXIT_USAGE, "--plot: %s", err.message);
+    }
+    if (plot_size != NULL) {
+        char *end;
+        plot_w = strtod(plot_size, &end);
+        plot_h = (*end == 'x' || *end == 'X') ? strtod(end + 1, &end) : NAN;
+        if (*end != '\0' || !(plot_w >= 200.0 && plot_w <= 10000.0) ||
+            !(plot_h >= 200.0 && plot_h <= 10000.0))
+            return se_cli_fail(SE_EXIT_USAGE,
+                               "--plot-size: '%s' is not WIDTHxHEIGHT with each in [200, 10000]",
+                               plot_size);
+    }
     if (line_path != NULL &&
         (so.speed || so.velocity_factor || so.tension || so.axial_stiffness || so.mass_per_length ||
          so.uncertainty))
@@ -317,8 +403,11 @@ int se_cmd_locate(int argc, char **argv)
             inputs[1] = inputs[2];
             inputs[2] = NULL;
         }
-        if (json != NULL && (rc = se_cli_check_output(json, inputs)) != SE_EXIT_OK)
-            goto done;
+        const char *outs[4] = {json, plot, report, csv};
+        size_t k;
+        for (k = 0; k < 4; k++)
+            if (outs[k] != NULL && (rc = se_cli_check_output(outs[k], inputs)) != SE_EXIT_OK)
+                goto done;
     }
 
     rec = se_recording_read(path, NULL, &err);
@@ -343,6 +432,7 @@ int se_cmd_locate(int argc, char **argv)
         rc = se_cli_fail_err(&err, 0);
         goto done;
     }
+    cfg.keep_trace = plot != NULL || report != NULL;
     if (se_locate(se_recording_channel(rec, (unsigned)(channel - 1)), rec->frames, rec->rate, &cfg,
                   &res, &err) != SE_OK) {
         rc = se_cli_fail(se_cli_exit_code(err.code, 0), "%s: %s", path, err.message);
@@ -356,9 +446,8 @@ int se_cmd_locate(int argc, char **argv)
                 res.direct_clipped ? "the outgoing pulse itself is clipped, so every reflection "
                                      "estimate is unreliable; events"
                                    : "events");
-    if (json != NULL) {
-        se_run_info info;
-        se_run_info_init(&info);
+    se_run_info_init(&info);
+    {
         info.input_file = path;
         info.input_sha256 = sha;
         info.input_format = rec->format;
@@ -380,6 +469,8 @@ int se_cmd_locate(int argc, char **argv)
         info.line_name = line != NULL ? line->name : NULL;
         info.expected = exp;
         info.n_expected = nexp;
+    }
+    if (json != NULL) {
         text = se_result_json(&res, &info, &err);
         if (text == NULL) {
             rc = se_cli_fail_err(&err, 1);
@@ -388,7 +479,10 @@ int se_cmd_locate(int argc, char **argv)
         if ((rc = se_write_text(json, text)) != SE_EXIT_OK)
             goto done;
     }
-    if (!c.quiet && !(json != NULL && strcmp(json, "-") == 0))
+    if ((rc = se_locate_outputs(&res, &info, line, exp, nexp, cfg.map, plot, plot_w, plot_h, report,
+                                csv, title, units[0] == 'f', refdesc)) != SE_EXIT_OK)
+        goto done;
+    if (!c.quiet && !(json != NULL && strcmp(json, "-") == 0) && !(csv != NULL && strcmp(csv, "-") == 0))
         se_print_table(&res, rec, (unsigned)channel, refdesc, &sp, fa, conf, units[0] == 'f',
                        c.verbose, line, exp);
 done:
