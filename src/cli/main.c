@@ -16,6 +16,8 @@ static const char se_main_usage[] =
     "commands:\n"
     "  locate     locate and classify the reflections in a recording\n"
     "  simulate   make a recording of a modelled line (demo, tests, planning)\n"
+    "  survey     every line of a survey file: summary, combined report, JSON Lines\n"
+    "  compare    what changed since a baseline recording (new, gone, moved, changed)\n"
     "  version    print the version\n"
     "\n"
     "`strandecho COMMAND --help` describes each command.\n"
@@ -44,5 +46,9 @@ int main(int argc, char **argv)
         return se_cmd_locate(argc - 1, argv + 1);
     if (strcmp(argv[1], "simulate") == 0)
         return se_cmd_simulate(argc - 1, argv + 1);
+    if (strcmp(argv[1], "survey") == 0)
+        return se_cmd_survey(argc - 1, argv + 1);
+    if (strcmp(argv[1], "compare") == 0)
+        return se_cmd_compare(argc - 1, argv + 1);
     return se_cli_fail(SE_EXIT_USAGE, "unknown command '%s' (see strandecho --help)", argv[1]);
 }
