@@ -18,6 +18,9 @@ static const char se_main_usage[] =
     "  simulate   make a recording of a modelled line (demo, tests, planning)\n"
     "  survey     every line of a survey file: summary, combined report, JSON Lines\n"
     "  compare    what changed since a baseline recording (new, gone, moved, changed)\n"
+    "  speed      per-segment speeds, impedances, travel times and expected reflections\n"
+    "  calibrate  solve the wave speed from an echo at a known distance\n"
+    "  plan       pulse, sample rate, record length and stacking for a survey of a line\n"
     "  version    print the version\n"
     "\n"
     "`strandecho COMMAND --help` describes each command.\n"
@@ -50,5 +53,11 @@ int main(int argc, char **argv)
         return se_cmd_survey(argc - 1, argv + 1);
     if (strcmp(argv[1], "compare") == 0)
         return se_cmd_compare(argc - 1, argv + 1);
+    if (strcmp(argv[1], "speed") == 0)
+        return se_cmd_speed(argc - 1, argv + 1);
+    if (strcmp(argv[1], "calibrate") == 0)
+        return se_cmd_calibrate(argc - 1, argv + 1);
+    if (strcmp(argv[1], "plan") == 0)
+        return se_cmd_plan(argc - 1, argv + 1);
     return se_cli_fail(SE_EXIT_USAGE, "unknown command '%s' (see strandecho --help)", argv[1]);
 }
