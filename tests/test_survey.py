@@ -1,0 +1,181 @@
+#!/usr/bin/python3
+"""strandecho tests: `strandecho survey`. Three invented legs (made with `simulate`, lattice model)
+and a survey file naming them, one with a baseline recording:
+
+- --jobs 2 gives byte-identical JSON Lines to --jobs 1, and each object equals (apart from its
+  "survey" and "compare" keys) the JSON of a single `locate` run of that recording: threads change
+  nothing;
+- the shards 1/2 and 2/2, merged, equal the single run, and each shard holds exactly its lines
+  (K, K+N, ...);
+- the leg with a baseline reports exactly one change that may be a fault, the reflector added;
+- no progress bar when stderr is not a terminal;
+- a survey file error names FILE:LINE:COLUMN and exits 3; a bad --shard exits 2;
+- the combined report holds every line's name.
+
+Oracle: the simulated lines themselves and the single-run results (common practice, no source)."""
+import json
+import os
+import shutil
+import subprocess
+import sys
+import tempfile
+
+CLI = os.environ.get("SE_CLI")
+failures = 0
+checks = 0
+
+
+def check(cond, what):
+    global failures, checks
+    checks += 1
+    if not cond:
+        failures += 1
+        print("FAIL: " + what, file=sys.stderr)
+    return cond
+
+
+def run(args, cwd):
+    p = subprocess.run([CLI] + args, cwd=cwd, capture_output=True, text=True, timeout=120)
+    return p.returncode, p.stdout, p.stderr
+
+
+SURVEY = """site: Fenwold test mast (invented)
+date: 2026-05-02
+lines:
+  - name: Guy A
+    recording: legs/a.wav
+    pulse_channel: 2
+    tension: 20 kN
+    mass_per_length: 1.25 kg/m
+  - name: Guy B
+    recording: legs/b-now.wav
+    baseline: legs/b-before.wav
+    pulse_channel: 2
+    tension: 20 kN
+    mass_per_length: 1.25 kg/m
+  - name: Guy C
+    recordings: [legs/c.wav]
+    pulse_channel: 2
+    tension: 20 kN
+    mass_per_length: 1.25 kg/m
+"""
+
+# 20 kN on 1.25 kg/m: sqrt(T/mu) = 126.49 m/s (REFERENCE.md 1 [calc]); 8 kHz, hann 20 ms.
+SIM = ["--pulse", "hann:20ms", "--rate", "8000", "--duration", "2.5", "--mass-per-length",
+       "1.25 kg/m", "--noise", "0.003", "--quiet"]
+LEGS = {
+    "a.wav": ["--tension", "20 kN", "--reflector", "35m:-0.3", "--end", "140m:fixed", "--seed", "1"],
+    "b-before.wav": ["--tension", "20 kN", "--reflector", "50m:-0.25", "--end", "130m:fixed",
+                     "--seed", "2"],
+    # 0.6 % more tension: 0.3 % faster; 10 % more gain; a new reflector at 92 m
+    "b-now.wav": ["--tension", "20.12 kN", "--gain", "0.55", "--reflector", "50m:-0.25",
+                  "--reflector", "92m:+0.18", "--end", "130m:fixed", "--seed", "3"],
+    "c.wav": ["--tension", "20 kN", "--reflector", "70m:+0.2", "--end", "150m:fixed", "--seed", "4"],
+}
+
+
+def strip(o):
+    o = dict(o)
+    o.pop("survey", None)
+    o.pop("compare", None)
+    return o
+
+
+def main():
+    if not CLI or not os.path.exists(CLI):
+        print("SE_CLI not set or missing: skipped")
+        return 77
+    tmp = tempfile.mkdtemp(prefix="svy-", dir=os.getcwd())
+    try:
+        os.mkdir(os.path.join(tmp, "legs"))
+        for name, args in LEGS.items():
+            rc, _, se = run(["simulate"] + SIM + args + ["-o", "legs/" + name], tmp)
+            if not check(rc == 0, "simulate %s: %s" % (name, se)):
+                return 1
+        with open(os.path.join(tmp, "site.yaml"), "w") as f:
+            f.write(SURVEY)
+
+        rc1, so1, se1 = run(["survey", "site.yaml", "--jobs", "1", "--jsonl", "one.jsonl",
+                             "--report", "site.html"], tmp)
+        check(rc1 == 0, "survey --jobs 1 exit 0 (got %d: %s)" % (rc1, se1))
+        check(se1 == "", "no progress bar or message when stderr is not a terminal: %r" % se1)
+        rc2, _, se2 = run(["survey", "site.yaml", "--jobs", "2", "--jsonl", "two.jsonl", "--quiet"],
+                          tmp)
+        check(rc2 == 0, "survey --jobs 2 exit 0 (%s)" % se2)
+        one = open(os.path.join(tmp, "one.jsonl")).read()
+        two = open(os.path.join(tmp, "two.jsonl")).read()
+        check(one == two, "--jobs 2 gives the same bytes as --jobs 1")
+        objs = [json.loads(l) for l in one.splitlines()]
+        check(len(objs) == 3, "one JSON object per recording (got %d)" % len(objs))
+        check(all("\n" not in l for l in one.splitlines()), "compact: one line each")
+        check([o["survey"]["line_index"] for o in objs] == [1, 2, 3], "survey order")
+        for name in ("Guy A", "Guy B", "Guy C"):
+            check(name in so1, "summary table names %s" % name)
+        html = open(os.path.join(tmp, "site.html")).read()
+        for name in ("Guy A", "Guy B", "Guy C", "Fenwold test mast"):
+            check(name in html, "report holds %s" % name)
+
+        # three single runs equal the threaded survey's objects
+        for o, rec in zip(objs, ["legs/a.wav", "legs/b-now.wav", "legs/c.wav"]):
+            rc, so, se = run(["locate", rec, "--pulse-channel", "2", "--tension", "20 kN",
+                              "--mass-per-length", "1.25 kg/m", "--json", "-"], tmp)
+            check(rc == 0, "locate %s (%s)" % (rec, se))
+            single = json.loads(so)
+            check(strip(o) == single, "survey object of %s equals a single locate run" % rec)
+
+        # the baseline comparison: exactly the new reflector (92 m / 1.003 with the survey's speed)
+        b = objs[1]
+        check("compare" in b and "compare" not in objs[0], "compare only where a baseline is named")
+        if "compare" in b:
+            faults = [c for c in b["compare"]["changes"] if not c["secondary"]]
+            check(len(faults) == 1, "exactly one change that may be a fault (got %r)" % faults)
+            if faults:
+                check(faults[0]["kind"] == "new", "the change is new")
+                check(abs(faults[0]["distance_m"] - 92.0 / 1.003) < 0.5,
+                      "new reflector at 92 m / 1.003 (got %.3f)" % faults[0]["distance_m"])
+            check(abs(b["compare"]["speed_change"] - 0.003) < 2e-4,
+                  "speed change 0.3 %% (got %g)" % b["compare"]["speed_change"])
+
+        # shards merge to the single run
+        merged = []
+        for k in (1, 2):
+            rc, _, se = run(["survey", "site.yaml", "--shard", "%d/2" % k, "--jsonl",
+                             "shard%d.jsonl" % k, "--quiet"], tmp)
+            check(rc == 0, "shard %d/2 exit 0 (%s)" % (k, se))
+            lines = open(os.path.join(tmp, "shard%d.jsonl" % k)).read().splitlines()
+            idx = [json.loads(l)["survey"]["line_index"] for l in lines]
+            check(idx == list(range(k, 4, 2)), "shard %d/2 holds lines %r (got %r)"
+                  % (k, list(range(k, 4, 2)), idx))
+            merged += lines
+        merged.sort(key=lambda l: (json.loads(l)["survey"]["line_index"],
+                                   json.loads(l)["survey"]["recording_index"]))
+        check(merged == one.splitlines(), "shards 1/2 + 2/2 merged equal the single run")
+
+        # errors
+        rc, _, se = run(["survey", "site.yaml", "--shard", "3/2"], tmp)
+        check(rc == 2 and se.startswith("strandecho: error:"), "--shard 3/2 exits 2 (%d %s)" % (rc, se))
+        with open(os.path.join(tmp, "bad.yaml"), "w") as f:
+            f.write("site: x\nlines:\n  - name: A\n    recording: legs/a.wav\n    speeed: 100\n")
+        rc, _, se = run(["survey", "bad.yaml"], tmp)
+        check(rc == 3 and "bad.yaml:5:5" in se and "speeed" in se,
+              "unknown key named with FILE:LINE:COLUMN, exit 3 (%d %s)" % (rc, se))
+        with open(os.path.join(tmp, "nospeed.yaml"), "w") as f:
+            f.write("lines:\n  - recording: legs/a.wav\n")
+        rc, _, se = run(["survey", "nospeed.yaml"], tmp)
+        check(rc == 3 and "speed" in se, "a line without a speed is refused (%d %s)" % (rc, se))
+        with open(os.path.join(tmp, "missing.yaml"), "w") as f:
+            f.write(SURVEY.replace("legs/c.wav", "legs/none.wav"))
+        rc, _, se = run(["survey", "missing.yaml", "--jsonl", "m.jsonl", "--quiet"], tmp)
+        check(rc == 3, "a missing recording exits 3 (got %d)" % rc)
+        ml = open(os.path.join(tmp, "m.jsonl")).read().splitlines()
+        check(len(ml) == 3 and "error" in json.loads(ml[2]) and "error" not in json.loads(ml[0]),
+              "the other recordings are still written, the failed one carries its error")
+    finally:
+        shutil.rmtree(tmp, ignore_errors=True)
+    print("test_survey: %d of %d checks failed" % (failures, checks) if failures
+          else "test_survey: all %d checks passed" % checks)
+    return 1 if failures else 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
