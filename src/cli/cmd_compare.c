@@ -253,10 +253,14 @@ int se_cmd_compare(int argc, char **argv)
             printf(" #  change   distance (%s)  shift (%s)  reflection now  before  significance\n", u, u);
             for (i = 0; i < cr->n_changes; i++) {
                 const se_change *ch = &cr->changes[i];
-                printf("%2zu  %-7s  %13.3f  %10.3f  %14.3f  %6.3f  %9.1f sigma%s\n", i + 1,
-                       se_change_kind_name(ch->kind), ch->distance_m * k, ch->shift_m * k,
-                       ch->reflection_now, ch->reflection_baseline, ch->significance,
-                       ch->secondary ? "  secondary (not a fault)" : "");
+                char rn[32] = "-", rb[32] = "-";
+                if (isfinite(ch->reflection_now))
+                    snprintf(rn, sizeof rn, "%+.3f", ch->reflection_now);
+                if (isfinite(ch->reflection_baseline))
+                    snprintf(rb, sizeof rb, "%+.3f", ch->reflection_baseline);
+                printf("%2zu  %-7s  %13.3f  %10.3f  %14s  %6s  %9.1f sigma%s\n", i + 1,
+                       se_change_kind_name(ch->kind), ch->distance_m * k, ch->shift_m * k, rn, rb,
+                       ch->significance, ch->secondary ? "  secondary (not a fault)" : "");
             }
             if (cr->n_changes == 0)
                 printf("    no change above the threshold\n");
