@@ -7,6 +7,8 @@
 #include "cli.h"
 #include "commands.h"
 #include "strandecho/distmap.h"
+#include "strandecho/fdline.h"
+#include "strandecho/fdmodel.h"
 #include "strandecho/line.h"
 #include "strandecho/pulse.h"
 #include "strandecho/recording.h"
@@ -14,6 +16,9 @@
 #include "strandecho/units.h"
 
 #define SE_MAX_REFLECTORS 256
+/* Impedance given to a line known only by its speed (--speed: mu = 1 kg/m, so Z = v N s/m) or by
+ * its velocity factor (50 ohm) when --impedance is not given: only impedance ratios shape a record. */
+#define SE_FD_DEFAULT_OHM 50.0
 
 static const char se_simulate_usage[] =
     "usage: strandecho simulate --pulse SPEC --rate HZ --duration SECONDS -o FILE [options]\n"
@@ -44,7 +49,33 @@ static const char se_simulate_usage[] =
     "                           ends; --reflector adds faults to it, --break D cuts it at D with a\n"
     "                           free-like end\n"
     "  --gain G                 scale of both channels (default 0.5)\n"
-    "  --quiet                  print nothing on success\n";
+    "  --model lattice|fd       forward model: the equal-travel-time lattice (default, fast) or\n"
+    "                           the finite-difference wave-equation solver (docs/fd-model.md)\n"
+    "  --quiet                  print nothing on success\n"
+    "\n"
+    "With --model fd the line is built from its physics: the speed options give T and mu (or EA\n"
+    "and mu); --speed alone takes mu = 1 kg/m (Z = v N s/m) and --velocity-factor Z0 = 50 ohm\n"
+    "unless --impedance says otherwise (only impedance ratios shape the record). A --reflector\n"
+    "is an impedance step with that coefficient; the far end and source end follow the sign\n"
+    "rule of --quantity (the source end must be free-like or continuing/matched). Channel 1 is\n"
+    "the recorded quantity divided by the peak of the direct wave, channel 2 the force pulse.\n"
+    "  --step D:RATIO           impedance step Z2/Z1 = RATIO from D on (repeatable)\n"
+    "  --mass D:KG              a point mass (clamp, fitting) at D (repeatable)\n"
+    "  --spring D:N/m           a spring to ground at D (repeatable)\n"
+    "  --impedance Z            impedance of a line given by --speed or --velocity-factor\n"
+    "  --cells-per-pulse N      finest grid the pulse needs (default 15)\n";
+
+/* Options that only the fd model reads. */
+typedef struct se_fd_opts {
+    const char *step[SE_MAX_REFLECTORS];
+    size_t nstep;
+    const char *mass[SE_MAX_REFLECTORS];
+    size_t nmass;
+    const char *spring[SE_MAX_REFLECTORS];
+    size_t nspring;
+    const char *impedance;
+    unsigned long cells;
+} se_fd_opts;
 
 /* "D:R" with a length unit and a coefficient or termination name. */
 static int se_parse_at(const char *opt, const char *text, se_quantity q, double *d, double *r)
@@ -155,6 +186,262 @@ static int se_line_model(const se_line *ln, const se_sim_reflector *refl, size_t
     return SE_EXIT_OK;
 }
 
+/* "D:VALUE" for --step, --mass, --spring: a distance and a positive (or >= 0) value. */
+static int se_parse_fd_at(const char *opt, const char *text, se_unit_kind kind, const char *unit,
+                          double *d, double *value)
+{
+    char buf[128];
+    const char *colon = strchr(text, ':');
+    size_t n;
+    se_error err;
+    se_error_clear(&err);
+    if (colon == NULL || colon == text)
+        return se_cli_fail(SE_EXIT_USAGE, "%s: '%s' is not DISTANCE:VALUE (e.g. 25m:%s)", opt, text,
+                           unit);
+    n = (size_t)(colon - text);
+    if (n >= sizeof buf)
+        return se_cli_fail(SE_EXIT_USAGE, "%s: '%s' is too long", opt, text);
+    memcpy(buf, text, n);
+    buf[n] = '\0';
+    if (se_unit_parse(buf, SE_UNIT_LENGTH, "m", d, &err) != SE_OK)
+        return se_cli_fail(SE_EXIT_USAGE, "%s: %s", opt, err.message);
+    if (!(*d >= 0.0))
+        return se_cli_fail(SE_EXIT_USAGE, "%s: distance %g m is negative", opt, *d);
+    if (strcmp(unit, "kg") == 0) {
+        /* no mass unit in units.h: a number, optionally followed by kg */
+        char *end;
+        *value = strtod(colon + 1, &end);
+        while (*end == ' ')
+            end++;
+        if (end == colon + 1 || (*end != '\0' && strcmp(end, "kg") != 0))
+            return se_cli_fail(SE_EXIT_USAGE, "%s: '%s' is not a mass in kg", opt, colon + 1);
+    } else if (se_unit_parse(colon + 1, kind, kind == SE_UNIT_RATIO ? NULL : unit, value, &err) !=
+               SE_OK) {
+        return se_cli_fail(SE_EXIT_USAGE, "%s: %s", opt, err.message);
+    }
+    if (!(*value >= 0.0 && isfinite(*value)))
+        return se_cli_fail(SE_EXIT_USAGE, "%s: value %g %s must be >= 0 and finite", opt, *value,
+                           unit);
+    return SE_EXIT_OK;
+}
+
+/* The fd model: build the line from its physics, run it, normalise, write, report. */
+static int se_run_fd(const se_cli *c, const se_fd_opts *fo, const se_speed *sp, se_quantity q,
+                     const se_line *ln, const char *line_path, const se_sim_reflector *refl,
+                     size_t nrefl, const char *break_spec, const char *end_spec, double rs,
+                     const se_sim_record *rec, double loss, double gain, const char *out)
+{
+    se_error err;
+    se_fd_line *m = NULL;
+    se_fd_config cfg;
+    se_fd_stats st;
+    double *resp = NULL, *inj = NULL, peak = 0.0, end_d = 0.0, end_r = 0.0, z1 = NAN, v1 = NAN;
+    size_t frames, i;
+    int rc = SE_EXIT_OK;
+    const char *zsrc = "";
+    double sd[SE_MAX_REFLECTORS], sr[SE_MAX_REFLECTORS];
+    se_fd_point pts[2 * SE_MAX_REFLECTORS];
+
+    se_error_clear(&err);
+    memset(&cfg, 0, sizeof cfg);
+    memset(pts, 0, sizeof pts);
+    for (i = 0; i < fo->nstep; i++)
+        if (se_parse_fd_at("--step", fo->step[i], SE_UNIT_RATIO, "Z2/Z1", &sd[i], &sr[i]) != 0)
+            return SE_EXIT_USAGE;
+    for (i = 0; i < fo->nmass + fo->nspring; i++) {
+        int is_mass = i < fo->nmass;
+        double val;
+        if (se_parse_fd_at(is_mass ? "--mass" : "--spring",
+                           is_mass ? fo->mass[i] : fo->spring[i - fo->nmass],
+                           SE_UNIT_WEIGHT_PER_LENGTH, is_mass ? "kg" : "N/m", &pts[i].x_m,
+                           &val) != 0)
+            return SE_EXIT_USAGE;
+        if (is_mass)
+            pts[i].mass_kg = val;
+        else
+            pts[i].spring_n_m = val;
+    }
+    if (ln != NULL) {
+        m = se_fd_line_from_line(ln, fmax(0.25 / rec->rate_hz, rec->pulse.duration_s / 16.0), &err);
+        if (m == NULL)
+            return se_cli_fail_err(&err, 0);
+        zsrc = ln->segments[0].impedance_near > 0.0 ? "from the line file"
+                                                    : "1 (the line file gives none)";
+    } else {
+        if (!isnan(sp->tension_n) || !isnan(sp->axial_stiffness_n)) {
+            if (fo->impedance != NULL)
+                return se_cli_fail(SE_EXIT_USAGE,
+                                   "--impedance: the tension (or EA) and mass per length already "
+                                   "give Z = sqrt(T mu)");
+            z1 = sp->mass_per_length_kg_m * sp->speed_m_s;
+            zsrc = "sqrt(T mu)";
+        } else if (fo->impedance != NULL) {
+            if (se_unit_parse(fo->impedance, SE_UNIT_IMPEDANCE, NULL, &z1, &err) != SE_OK)
+                return se_cli_fail(SE_EXIT_USAGE, "--impedance: %s", err.message);
+            if (!(z1 > 0.0 && isfinite(z1)))
+                return se_cli_fail(SE_EXIT_USAGE, "--impedance: %g is not positive", z1);
+            zsrc = "given (--impedance)";
+        } else if (sp->electrical_hint) {
+            z1 = SE_FD_DEFAULT_OHM;
+            zsrc = "50 ohm assumed (only ratios matter)";
+        } else {
+            z1 = sp->speed_m_s; /* mu = 1 kg/m */
+            zsrc = "mu = 1 kg/m assumed, Z = v (only ratios matter)";
+        }
+        if (end_spec != NULL) {
+            if (se_parse_at("--end", end_spec, q, &end_d, &end_r) != 0)
+                return SE_EXIT_USAGE;
+        } else {
+            /* no far end inside the record: an absorbing end beyond the farthest echo or element */
+            end_d = 0.5 * sp->speed_m_s * rec->duration_s * 1.01;
+            for (i = 0; i < nrefl; i++)
+                end_d = fmax(end_d, refl[i].distance_m * 1.01);
+            for (i = 0; i < fo->nstep; i++)
+                end_d = fmax(end_d, 1.01 * sd[i]);
+            for (i = 0; i < fo->nmass + fo->nspring; i++)
+                end_d = fmax(end_d, 1.01 * pts[i].x_m);
+            end_r = 0.0;
+        }
+        m = se_fd_line_uniform(sp->speed_m_s, z1, end_d, q, rs, end_r, &err);
+        if (m == NULL)
+            return se_cli_fail(se_cli_exit_code(err.code, 0), "simulate --model fd: %s",
+                               err.message);
+    }
+    for (i = 0; i < nrefl; i++)
+        if (se_fd_line_add_reflector(m, refl[i].distance_m, refl[i].reflection, &err) != SE_OK) {
+            rc = se_cli_fail(SE_EXIT_USAGE, "--reflector: %s", err.message);
+            goto done;
+        }
+    for (i = 0; i < fo->nstep; i++)
+        if (se_fd_line_add_step(m, sd[i], sr[i], &err) != SE_OK) {
+            rc = se_cli_fail(SE_EXIT_USAGE, "--step: %s", err.message);
+            goto done;
+        }
+    for (i = 0; i < fo->nmass + fo->nspring; i++)
+        if (se_fd_line_add_point(m, &pts[i], &err) != SE_OK) {
+            rc = se_cli_fail(SE_EXIT_USAGE, "%s: %s", i < fo->nmass ? "--mass" : "--spring",
+                             err.message);
+            goto done;
+        }
+    if (break_spec != NULL) {
+        double bd;
+        if (se_unit_parse(break_spec, SE_UNIT_LENGTH, "m", &bd, &err) != SE_OK ||
+            se_fd_line_cut(m, bd, &err) != SE_OK) {
+            rc = se_cli_fail(SE_EXIT_USAGE, "--break: %s", err.message);
+            goto done;
+        }
+    }
+    se_fd_line_config(m, &cfg);
+    cfg.pulse = rec->pulse;
+    cfg.pulse_amplitude_n = 1.0;
+    cfg.pulse_start_s = rec->pulse_start_s;
+    cfg.rate_hz = rec->rate_hz;
+    cfg.duration_s = rec->duration_s;
+    cfg.min_cells_per_pulse = (size_t)fo->cells;
+    if (se_fd_line_at(m, 0.0, &z1, &v1, &err) != SE_OK) {
+        rc = se_cli_fail_err(&err, 0);
+        goto done;
+    }
+    cfg.loss_np_per_s = loss * log(10.0) / 20.0 * v1;
+    if (se_fd_plan(&cfg, &st, &err) != SE_OK) {
+        rc = se_cli_fail(se_cli_exit_code(err.code, 0), "simulate --model fd: %s", err.message);
+        goto done;
+    }
+    frames = se_fd_frames(&cfg);
+    if (frames < 2 || !(rec->duration_s * rec->rate_hz <= (double)SE_SIM_MAX_FRAMES)) {
+        rc = se_cli_fail(SE_EXIT_USAGE, "simulate: %g s at %g Hz gives %zu samples (2 to %zu)",
+                         rec->duration_s, rec->rate_hz, frames, (size_t)SE_SIM_MAX_FRAMES);
+        goto done;
+    }
+    {
+        const char *inputs[2] = {line_path, NULL};
+        if ((rc = se_cli_check_output(out, inputs)) != SE_EXIT_OK)
+            goto done;
+    }
+    resp = malloc(frames * sizeof *resp);
+    inj = malloc(frames * sizeof *inj);
+    if (resp == NULL || inj == NULL) {
+        rc = se_cli_fail(SE_EXIT_MEMORY, "simulate: out of memory for %zu samples", frames);
+        goto done;
+    }
+    if (se_fd_simulate(&cfg, resp, inj, frames, &st, &err) != SE_OK ||
+        se_fd_direct_peak(&cfg, &peak, &err) != SE_OK) {
+        rc = se_cli_fail(se_cli_exit_code(err.code, 0), "simulate --model fd: %s", err.message);
+        goto done;
+    }
+    for (i = 0; i < frames; i++)
+        resp[i] /= peak;
+    if (se_fd_add_noise(resp, frames, rec->noise_rms, rec->seed, &err) != SE_OK) {
+        rc = se_cli_fail_err(&err, 0);
+        goto done;
+    }
+    for (i = 0; i < frames; i++) {
+        resp[i] *= gain;
+        inj[i] *= gain;
+    }
+    {
+        const double *chans[2] = {resp, inj};
+        if (se_recording_write(out, chans, 2, frames, rec->rate_hz, &err) != SE_OK) {
+            rc = se_cli_fail_err(&err, 1);
+            goto done;
+        }
+    }
+    if (!c->quiet) {
+        double x = 0.0, tau;
+        int sign = se_quantity_sign(q);
+        printf("wrote %s: %zu samples at %.10g Hz, fd model: %zu cells, dt %.6g s (%.0f steps per "
+               "sample), energy balance %.2g\n",
+               out, frames, rec->rate_hz, st.cells, st.dt_s, 1.0 / (st.dt_s * rec->rate_hz),
+               st.energy_drift);
+        printf("  speed %.6g m/s (%s), impedance %.6g (%s), %s source, %s recorded, %s far end\n", v1,
+               ln != NULL ? "line file" : sp->source, z1, zsrc,
+               cfg.source == SE_FD_SOURCE_FREE ? "free" : "matched", se_quantity_name(q),
+               cfg.far_end == SE_FD_END_FIXED  ? "fixed"
+               : cfg.far_end == SE_FD_END_FREE ? "free"
+                                               : "absorbing");
+        printf("  channel 1 = %s / %.6g (direct-wave peak, SI units per N of force)\n",
+               se_quantity_name(q), peak);
+        for (i = 0; i + 1 < m->n_segments; i++) {
+            const se_fd_segment *a = &m->segments[i], *b = &m->segments[i + 1];
+            double za = sqrt(a->tension_n * a->mu_kg_m), zb = sqrt(b->tension_n * b->mu_kg_m);
+            double r = sign * (za - zb) / (za + zb);
+            x += a->length_m;
+            if (fabs(r) <= 1e-3 && ln != NULL)
+                continue;
+            if (se_fd_grid_delay(&cfg, x, &tau, &err) != SE_OK) {
+                rc = se_cli_fail_err(&err, 0);
+                goto done;
+            }
+            printf("  step at %.4f m: grid round trip %.9f s", x, 2.0 * tau);
+            if (ln == NULL)
+                printf(" (v tau = %.4f m)", tau * v1);
+            printf(", Z2/Z1 %.6g, coefficient %+.4f%s\n", zb / za, r,
+                   m->has_tail && i + 2 == m->n_segments ? " (far end)" : "");
+        }
+        for (i = 0; i < m->n_points; i++) {
+            if (se_fd_grid_delay(&cfg, m->points[i].x_m, &tau, &err) != SE_OK) {
+                rc = se_cli_fail_err(&err, 0);
+                goto done;
+            }
+            printf("  point at %.4f m: grid round trip %.9f s, mass %g kg, spring %g N/m\n",
+                   m->points[i].x_m, 2.0 * tau, m->points[i].mass_kg, m->points[i].spring_n_m);
+        }
+        if (se_fd_grid_delay(&cfg, m->end_m, &tau, &err) != SE_OK) {
+            rc = se_cli_fail_err(&err, 0);
+            goto done;
+        }
+        printf("  far end at %.4f m: grid round trip %.9f s", m->end_m, 2.0 * tau);
+        if (ln == NULL)
+            printf(" (v tau = %.4f m)", tau * v1);
+        printf("\n");
+    }
+done:
+    se_fd_line_free(m);
+    free(resp);
+    free(inj);
+    return rc;
+}
+
 int se_cmd_simulate(int argc, char **argv)
 {
     se_cli c = {argc, argv, 1, 0, 0};
@@ -175,8 +462,10 @@ int se_cmd_simulate(int argc, char **argv)
     se_quantity q;
     double end_d = 0.0, end_r = 0.0, rs = 0.0;
     double *resp = NULL, *inj = NULL;
-    int rc = SE_EXIT_OK, got;
+    int rc = SE_EXIT_OK, got, fd = 0;
+    se_fd_opts fo;
 
+    memset(&fo, 0, sizeof fo);
     memset(&so, 0, sizeof so);
     memset(&rec, 0, sizeof rec);
     se_error_clear(&err);
@@ -217,6 +506,36 @@ int se_cmd_simulate(int argc, char **argv)
             refl_spec[nrefl++] = v;
             continue;
         }
+        if ((got = se_cli_value(&c, "--model", &v)) != 0) {
+            if (got < 0)
+                return SE_EXIT_USAGE;
+            if (strcmp(v, "fd") == 0)
+                fd = 1;
+            else if (strcmp(v, "lattice") == 0)
+                fd = 0;
+            else
+                return se_cli_fail(SE_EXIT_USAGE, "--model: '%s' is not lattice or fd", v);
+            continue;
+        }
+#define SE_TAKE_MANY(name, arr, count)                                                            \
+    if ((got = se_cli_value(&c, name, &v)) != 0) {                                                \
+        if (got < 0)                                                                              \
+            return SE_EXIT_USAGE;                                                                 \
+        if ((count) >= SE_MAX_REFLECTORS)                                                         \
+            return se_cli_fail(SE_EXIT_USAGE, "%s: at most %d", name, SE_MAX_REFLECTORS);         \
+        (arr)[(count)++] = v;                                                                     \
+        continue;                                                                                 \
+    }
+        SE_TAKE_MANY("--step", fo.step, fo.nstep)
+        SE_TAKE_MANY("--mass", fo.mass, fo.nmass)
+        SE_TAKE_MANY("--spring", fo.spring, fo.nspring)
+#undef SE_TAKE_MANY
+        SE_TAKE("--impedance", fo.impedance)
+        if ((got = se_cli_value(&c, "--cells-per-pulse", &v)) != 0) {
+            if (got < 0 || se_cli_uint("--cells-per-pulse", v, 2, 100000, &fo.cells) != 0)
+                return SE_EXIT_USAGE;
+            continue;
+        }
         if ((got = se_cli_value(&c, "--loss", &v)) != 0) {
             if (got < 0 || se_parse_number("--loss", v, 0.0, 100.0, &loss) != 0)
                 return SE_EXIT_USAGE;
@@ -255,6 +574,9 @@ int se_cmd_simulate(int argc, char **argv)
         return se_cli_fail(SE_EXIT_USAGE, "--line %s gives the speeds, quantity and ends: drop "
                                           "--speed/--tension/--quantity/--source-end/--end",
                            line_path);
+    if (!fd && (fo.nstep || fo.nmass || fo.nspring || fo.impedance || fo.cells))
+        return se_cli_fail(SE_EXIT_USAGE, "--step, --mass, --spring, --impedance and "
+                                          "--cells-per-pulse go with --model fd");
     if (break_spec != NULL && line_path == NULL)
         return se_cli_fail(SE_EXIT_USAGE, "--break goes with --line (use --end D:free otherwise)");
     if ((rc = se_cli_speed_resolve(&so, line_path == NULL, &sp)) != SE_EXIT_OK)
@@ -283,6 +605,13 @@ int se_cmd_simulate(int argc, char **argv)
     for (i = 0; i < nrefl; i++)
         if (se_parse_at("--reflector", refl_spec[i], q, &refl[i].distance_m, &refl[i].reflection) != 0)
             return SE_EXIT_USAGE;
+    if (fd) {
+        rec.noise_rms = noise;
+        rec.seed = (unsigned long)seed;
+        rc = se_run_fd(&c, &fo, &sp, q, ln, line_path, refl, nrefl, break_spec, end_spec, rs, &rec,
+                       loss, gain, out);
+        goto done;
+    }
     if (ln != NULL) {
         rc = se_line_model(ln, refl, nrefl, break_spec, &rec, &ifs, &line);
         if (rc != SE_EXIT_OK)
