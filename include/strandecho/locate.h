@@ -46,10 +46,28 @@ typedef struct se_locate_config {
     const struct se_expected_event *expected;
     size_t n_expected;
     int keep_trace;             /* 1: keep the matched-filter output in se_locate_result.trace */
+    /* Repeated shots (stack.h): with SE_STACKING_AUTO (the default) a recording holding several
+     * shots is stacked before locating. The shots are found on pilot [size: n, the response's
+     * length] when given (the pulse channel, borrowed), else on the direct arrivals in the
+     * response (then at least three consistent shots are needed). */
+    int stacking;               /* SE_STACKING_AUTO, SE_STACKING_OFF or SE_STACKING_ROBUST */
+    const double *pilot;
+    /* Losses: attenuation of the line in dB per metre, one way (NaN = unknown: estimated from a
+     * matched expected event of known coefficient, see se_locate_result.attenuation_db_per_m). */
+    double attenuation_db_per_m;
+    /* Overlapping echoes: 1 (default) refits groups of echoes closer than the main lobe by least
+     * squares (fitecho.h) and splits merged ones; 0 keeps CLEAN's estimates. */
+    int fit_overlaps;
 } se_locate_config;
 
+#define SE_STACKING_AUTO 0   /* stack when several shots are found (mean) */
+#define SE_STACKING_OFF 1    /* never stack */
+#define SE_STACKING_ROBUST 2 /* stack when several shots are found (20 % trimmed mean) */
+
 /* Defaults: velocity, speed 0 (must be set), no speed uncertainty, 0.01 false alarms per record,
- * 95 % intervals, 20 dB low-confidence limit, self reference. */
+ * 95 % intervals, 20 dB low-confidence limit, self reference, automatic stacking, unknown
+ * attenuation, overlap fitting on. source_reflection = NaN asks se_locate to estimate the
+ * source-end coefficient from the data (see se_locate_result.source_reflection). */
 void se_locate_config_init(se_locate_config *cfg);
 
 typedef struct se_event {
@@ -70,6 +88,15 @@ typedef struct se_event {
     int clipped;                   /* 1 when the echo's window touches clipped samples: unreliable */
     int expected;                  /* index of the matched expected event, -1 when unexpected (or
                                       when no line was described) */
+    double reflection_at_discontinuity; /* reflection with the losses removed: divided by the
+                                      attenuation over the round trip and by the two-way
+                                      transmissions (1 - r^2) of the primaries before it; equals
+                                      reflection when the attenuation is unknown and nothing
+                                      lies before it */
+    int fitted;                    /* 1 when the delay and amplitude come from the least-squares
+                                      fit of overlapping echoes (fitecho.h) */
+    int in_dead_zone;              /* 1 for an echo found inside the dead zone (in
+                                      se_locate_result.dead_zone_events only): low confidence */
 } se_event;
 
 /* Clipped runs remembered per result (more: every event is flagged). */
@@ -116,6 +143,25 @@ typedef struct se_locate_result {
                                 amplitude and 1 + r_s, the scale of threshold and reflection);
                                 sample i lies at delay i / rate_hz - t0_s; owned; else NULL */
     size_t trace_length;
+    /* Repeated shots. */
+    size_t shots_found;      /* shots found in the recording (1 for a single shot) */
+    size_t shots_used;       /* shots stacked (1 when not stacked) */
+    double stack_gain_db;    /* measured SNR gain of the stack, dB (stack.h); 0 when not stacked */
+    double stack_expected_gain_db; /* 10 log10 shots_used */
+    /* Source end and losses. */
+    double source_reflection;      /* source-end coefficient used (given or estimated) */
+    int source_reflection_estimated; /* 1 when estimated from the data: from the strongest primary
+                                      A_i and its source-end multiple A_2 at twice its delay,
+                                      q = A_2 / A_i^2 (amplitudes relative to the outgoing pulse)
+                                      = r_s / (1 + r_s), so r_s = q / (1 - q); losses cancel in q.
+                                      0 with no such multiple (then r_s = 0 is used) */
+    double attenuation_db_per_m;   /* one-way attenuation, dB/m (given or estimated); NaN unknown */
+    int attenuation_estimated;     /* 1 when estimated from a matched expected event of known
+                                      coefficient: g = |A seen| / |(1 + r_s) r T|, alpha from
+                                      g = 10^(-2 alpha d / 20) */
+    /* Echoes found inside the dead zone, flagged (never hidden, never in events): owned. */
+    se_event *dead_zone_events;    /* [size: n_dead_zone_events] */
+    size_t n_dead_zone_events;
 } se_locate_result;
 
 /* Locate reflections in response[size: n] sampled at rate_hz. Fills res (caller frees with

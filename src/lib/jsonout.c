@@ -98,6 +98,32 @@ char *se_result_json(const se_locate_result *res, const se_run_info *info, se_er
     bad |= se_jset(root, "noise_floored", json_boolean(res->noise_floored));
     bad |= se_jset(root, "clipped_samples", json_integer((json_int_t)res->clipped_samples));
     bad |= se_jset(root, "direct_clipped", json_boolean(res->direct_clipped));
+    bad |= se_jset(root, "shots_found", json_integer((json_int_t)res->shots_found));
+    bad |= se_jset(root, "shots_used", json_integer((json_int_t)res->shots_used));
+    bad |= se_jset(root, "stack_gain_db", se_jnum(res->stack_gain_db));
+    bad |= se_jset(root, "stack_expected_gain_db", se_jnum(res->stack_expected_gain_db));
+    bad |= se_jset(root, "source_reflection_used", se_jnum(res->source_reflection));
+    bad |= se_jset(root, "source_reflection_estimated", json_boolean(res->source_reflection_estimated));
+    bad |= se_jset(root, "attenuation_db_per_m", se_jnum(res->attenuation_db_per_m));
+    bad |= se_jset(root, "attenuation_estimated", json_boolean(res->attenuation_estimated));
+    {
+        json_t *dz = json_array();
+        if (dz == NULL)
+            goto nomem;
+        for (i = 0; i < res->n_dead_zone_events; i++) {
+            const se_event *ev = &res->dead_zone_events[i];
+            json_t *e = json_object();
+            if (e == NULL || json_array_append_new(dz, e) != 0) {
+                json_decref(dz);
+                goto nomem;
+            }
+            bad |= se_jset(e, "delay_s", se_jnum(ev->delay_s));
+            bad |= se_jset(e, "distance_m", se_jnum(ev->distance_m));
+            bad |= se_jset(e, "reflection", se_jnum(ev->reflection));
+            bad |= se_jset(e, "snr_db", se_jnum(ev->snr_db));
+        }
+        bad |= se_jset(root, "dead_zone_events", dz);
+    }
     for (i = 0; i < res->n_events; i++) {
         const se_event *ev = &res->events[i];
         json_t *e = json_object(), *mo;
@@ -113,6 +139,8 @@ char *se_result_json(const se_locate_result *res, const se_run_info *info, se_er
         bad |= se_jset(e, "class", json_string(se_event_class(res, ev)));
         bad |= se_jset(e, "reflection", se_jnum(ev->reflection));
         bad |= se_jset(e, "reflection_uncertainty", se_jnum(ev->reflection_uncertainty));
+        bad |= se_jset(e, "reflection_at_discontinuity", se_jnum(ev->reflection_at_discontinuity));
+        bad |= se_jset(e, "fitted", json_boolean(ev->fitted));
         bad |= se_jset(e, "snr_db", se_jnum(ev->snr_db));
         bad |= se_jset(e, "low_confidence", json_boolean(ev->low_confidence));
         bad |= se_jset(e, "clipped", json_boolean(ev->clipped || res->direct_clipped));

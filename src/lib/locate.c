@@ -15,6 +15,9 @@
 #include "internal.h"
 #include "strandecho/detect.h"
 #include "strandecho/distmap.h"
+#include "strandecho/fitecho.h"
+#include "strandecho/line.h"
+#include "strandecho/stack.h"
 #include "strandecho/xcorr.h"
 
 /* Noise floor relative to the direct arrival (80 dB): see se_locate. */
@@ -28,6 +31,21 @@ static se_status se_find_direct(const double *r, size_t n, const se_locate_confi
 static void se_label_multiples(se_event *ev, size_t n, double source_r, double resolution_s);
 static void se_find_clipping(const double *x, size_t n, se_locate_result *res);
 static int se_window_clipped(const se_locate_result *res, size_t start, size_t m);
+/* Longest pulse (samples) for which overlapping echoes are refitted by least squares. */
+#define SE_FIT_MAX_PULSE 4096
+static se_status se_locate_stack(double **x, size_t *n, const double *pulse, size_t m,
+                                 const se_locate_config *cfg, se_locate_result *res, size_t *pre,
+                                 se_error *err);
+static se_status se_refit_overlaps(const double *x, size_t n, const se_echo_model *mdl,
+                                   const se_locate_result *res, const se_peak *direct,
+                                   double thr, double hw, se_peak **peaks,
+                                   size_t *npeaks, double **lag_sd, double **amp_sd,
+                                   se_error *err);
+static double se_estimate_source(const se_peak *peaks, size_t npeaks, double lag0, double a0,
+                                 double hw, double thr, int *found);
+static void se_apply_losses(const se_locate_config *cfg, se_locate_result *res);
+static se_status se_event_uncertainty(const se_distmap *map, double z, double sl, double sl0,
+                                       double rate_hz, se_event *ev, se_error *err);
 
 void se_locate_config_init(se_locate_config *cfg)
 {
@@ -39,6 +57,9 @@ void se_locate_config_init(se_locate_config *cfg)
     cfg->low_snr_db = 20.0;
     cfg->reference_offset = SIZE_MAX;
     cfg->reference_kind = SE_REF_SELF;
+    cfg->stacking = SE_STACKING_AUTO;
+    cfg->attenuation_db_per_m = NAN;
+    cfg->fit_overlaps = 1;
 }
 
 void se_locate_result_free(se_locate_result *res)
@@ -54,6 +75,9 @@ void se_locate_result_free(se_locate_result *res)
     free(res->trace);
     res->trace = NULL;
     res->trace_length = 0;
+    free(res->dead_zone_events);
+    res->dead_zone_events = NULL;
+    res->n_dead_zone_events = 0;
 }
 
 const char *se_event_polarity(const se_event *ev)
@@ -266,6 +290,10 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
     se_distmap *own_map = NULL;
     const se_distmap *map;
     double beta_crb;
+    se_locate_config lc;
+    int rs_unknown, rs_found = 0;
+    double *lag_sd = NULL, *amp_sd = NULL;
+    se_echo_model *mdl = NULL;
 
     if (res == NULL)
         return se_fail(err, SE_ERR_ARG, "locate: no result record");
@@ -285,11 +313,18 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
                        cfg->false_alarms);
     if (!(cfg->confidence > 0.0 && cfg->confidence < 1.0))
         return se_fail(err, SE_ERR_RANGE, "locate: confidence %g is not in (0, 1)", cfg->confidence);
-    one_plus_rs = 1.0 + cfg->source_reflection;
-    if (!(cfg->source_reflection >= -1.0 && cfg->source_reflection <= 1.0) || fabs(one_plus_rs) < 1e-6)
+    lc = *cfg;
+    rs_unknown = isnan(cfg->source_reflection);
+    if (rs_unknown)
+        lc.source_reflection = 0.0; /* estimated below, once the echoes are known */
+    one_plus_rs = 1.0 + lc.source_reflection;
+    if (!(lc.source_reflection >= -1.0 && lc.source_reflection <= 1.0) || fabs(one_plus_rs) < 1e-6)
         return se_fail(err, SE_ERR_RANGE,
                        "locate: source-end coefficient %g leaves nothing to measure at the sensor",
                        cfg->source_reflection);
+    if (!(cfg->stacking >= SE_STACKING_AUTO && cfg->stacking <= SE_STACKING_ROBUST))
+        return se_fail(err, SE_ERR_ARG, "locate: stacking mode %d is not one of auto, off, robust",
+                       cfg->stacking);
     if (cfg->reference_kind != SE_REF_SELF && (cfg->reference == NULL || cfg->reference_length < 3))
         return se_fail(err, SE_ERR_ARG, "locate: the reference pulse has fewer than 3 samples");
     if (n < 16)
@@ -343,6 +378,33 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
         }
         memcpy(ref, cfg->reference, m * sizeof *ref);
     }
+    res->shots_found = res->shots_used = 1;
+    res->stack_expected_gain_db = 0.0;
+    if (cfg->stacking != SE_STACKING_OFF && m < n) {
+        size_t old_n = n, pre = 0;
+        st = se_locate_stack(&x, &n, ref, m, cfg, res, &pre, err);
+        if (st != SE_OK)
+            goto done;
+        if (n != old_n) {
+            /* the first used shot's pulse now starts at sample pre of the stacked trace */
+            if (lc.reference_offset != SIZE_MAX)
+                lc.reference_offset = pre;
+            res->n_clip_runs = 0; /* clipped shots were left out */
+            if (cfg->reference_kind == SE_REF_SELF) {
+                st = se_pulse_support(x, n, &ref_begin, &ref_end, err);
+                if (st != SE_OK)
+                    goto done;
+                m = ref_end - ref_begin;
+                free(ref);
+                ref = se_calloc(m, sizeof *ref, "reference", err);
+                if (ref == NULL) {
+                    st = SE_ERR_NOMEM;
+                    goto done;
+                }
+                memcpy(ref, x + ref_begin, m * sizeof *ref);
+            }
+        }
+    }
     if (m >= n) {
         st = se_fail(err, SE_ERR_DATA,
                      "the response (%zu samples) is not longer than the reference pulse (%zu samples)",
@@ -376,7 +438,7 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
     }
 
     /* Time origin: the direct arrival as it appears in the response. */
-    st = se_find_direct(r, n, cfg, ref_begin, m, &k0, err);
+    st = se_find_direct(r, n, &lc, ref_begin, m, &k0, err);
     if (st != SE_OK)
         goto done;
     st = se_refine_peak(r, n, k0, 0, &lag0, &a0, err);
@@ -450,11 +512,32 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
     if (st != SE_OK)
         goto done;
 
+    /* Overlapping echoes: least squares on the response, started from CLEAN (fitecho.h). */
+    if (cfg->fit_overlaps && m <= SE_FIT_MAX_PULSE && npeaks > 0) {
+        mdl = se_echo_model_create(ref, m, err);
+        if (mdl == NULL) {
+            st = err ? err->code : SE_ERR_NOMEM;
+            goto done;
+        }
+        st = se_refit_overlaps(x, n, mdl, res, &direct,
+                               res->noise_floored ? INFINITY : thr, se_acf_mainlobe_half_width(acf),
+                               &peaks, &npeaks, &lag_sd, &amp_sd, err);
+        if (st != SE_OK)
+            goto done;
+    }
+
+    /* Source-end coefficient from the data when it was not given. */
+    if (rs_unknown) {
+        lc.source_reflection = se_estimate_source(peaks, npeaks, lag0, a0,
+                                                  se_acf_mainlobe_half_width(acf), thr, &rs_found);
+        one_plus_rs = 1.0 + lc.source_reflection;
+    }
+
     /* Events. */
     {
         se_locate_stage sg;
         memset(&sg, 0, sizeof sg);
-        sg.cfg = cfg;
+        sg.cfg = &lc;
         sg.map = map;
         sg.rate_hz = rate_hz;
         sg.lag0 = lag0;
@@ -471,7 +554,23 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
         st = se_locate_events(&sg, peaks, npeaks, res, err);
         if (st != SE_OK)
             goto done;
+        /* fitted echoes carry the uncertainty of their own fit (covariance) */
+        for (i = 0; lag_sd != NULL && i < res->n_events; i++) {
+            se_event *ev = &res->events[i];
+            double z = gsl_cdf_ugaussian_Pinv(0.5 + 0.5 * cfg->confidence);
+            if (!isfinite(lag_sd[i]))
+                continue;
+            ev->fitted = 1;
+            ev->reflection_uncertainty = amp_sd[i] / fabs(a0) / fabs(one_plus_rs);
+            st = se_event_uncertainty(map, z, lag_sd[i], sigma / (fabs(a0) * beta_crb), rate_hz, ev,
+                                      err);
+            if (st != SE_OK)
+                goto done;
+        }
     }
+    res->source_reflection = lc.source_reflection;
+    res->source_reflection_estimated = rs_unknown && rs_found;
+    se_apply_losses(&lc, res);
     if (cfg->keep_trace) {
         /* hand the correlation over, scaled to reflection units like res->threshold */
         double g = 1.0 / (a0 * one_plus_rs);
@@ -484,6 +583,9 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
 
 done:
     free(peaks);
+    free(lag_sd);
+    free(amp_sd);
+    se_echo_model_destroy(mdl);
     se_acf_destroy(acf);
     se_xcorr_work_destroy(xw);
     se_xcorr_destroy(xc);
@@ -672,6 +774,7 @@ se_status se_locate_events(const se_locate_stage *sg, const se_peak *peaks, size
         ev->multiple_of[0] = ev->multiple_of[1] = -1;
         ev->expected = -1;
         ev->clipped = se_window_clipped(res, (size_t)floor(peaks[i].lag), m);
+        ev->reflection_at_discontinuity = ev->reflection; /* losses: se_locate */
     }
     res->n_events = npeaks;
     se_label_multiples(res->events, npeaks, cfg->source_reflection, hw / rate_hz);
@@ -703,6 +806,305 @@ se_status se_locate_events(const se_locate_stage *sg, const se_peak *peaks, size
     res->speed_m_s = v0;
     res->electrical = se_quantity_is_electrical(cfg->quantity);
     res->quantity = cfg->quantity;
+    res->source_reflection = cfg->source_reflection;
+    res->attenuation_db_per_m = NAN;
+    if (res->shots_found == 0)
+        res->shots_found = res->shots_used = 1;
 
+    return SE_OK;
+}
+
+/* Repeated shots: stack the recording in *x [size: *n] when it holds several (stack.h). With a
+ * pilot two shots suffice; on the response's own direct arrivals three consistent ones must be
+ * found and used (two equal arrivals may be a full reflection). On success with a stack, *x and *n are replaced
+ * by the stack and *pre receives the sample where the first used shot's pulse starts. When
+ * several credible shots were found but fewer than two are usable, the record is cut to the first
+ * usable (or the first) shot's segment so that later shots are not taken for echoes (with a
+ * pilot only). On the response the shots must also keep a rhythm (longest interval at most 1.5
+ * times the shortest). */
+static se_status se_locate_stack(double **x, size_t *n, const double *pulse, size_t m,
+                                 const se_locate_config *cfg, se_locate_result *res, size_t *pre,
+                                 se_error *err)
+{
+    se_stack_config sc;
+    se_stack_result sr;
+    se_status st;
+    size_t need = cfg->pilot != NULL ? 2 : 3;
+
+    se_stack_config_init(&sc);
+    sc.pilot = cfg->pilot;
+    sc.pulse = pulse;
+    sc.pulse_length = m;
+    sc.mode = cfg->stacking == SE_STACKING_ROBUST ? SE_STACK_TRIMMED : SE_STACK_MEAN;
+    st = se_stack_shots(*x, *n, &sc, &sr, err);
+    if (st == SE_ERR_NOTFOUND) { /* no trigger: leave it to the pipeline to say why */
+        se_stack_result_free(&sr);
+        return SE_OK;
+    }
+    if (st != SE_OK) {
+        se_stack_result_free(&sr);
+        return st;
+    }
+    if (cfg->pilot == NULL && sr.n_found >= 2) {
+        /* on the response, shots come in a rhythm: glitches and echoes do not */
+        size_t i;
+        double lo = INFINITY, hi = 0.0;
+        for (i = 1; i < sr.n_found; i++) {
+            double d = sr.onsets[i] - sr.onsets[i - 1];
+            lo = fmin(lo, d);
+            hi = fmax(hi, d);
+        }
+        if (hi > 1.5 * lo)
+            sr.n_found = 1;
+    }
+    if (sr.n_found >= need && sr.n_used >= need && sr.stacked != NULL) {
+        free(*x);
+        *x = sr.stacked;
+        *n = sr.length;
+        *pre = sr.pre;
+        sr.stacked = NULL;
+        res->shots_found = sr.n_found;
+        res->shots_used = sr.n_used;
+        res->stack_gain_db = sr.gain_db;
+        res->stack_expected_gain_db = sr.expected_gain_db;
+    } else if (cfg->pilot != NULL && sr.n_found >= 2 && sr.length > 0) {
+        size_t k = sr.n_used > 0 ? sr.first_used : 0, b, len = sr.length, i;
+        double o = floor(sr.onsets[k]);
+        b = o > (double)sr.pre ? (size_t)o - sr.pre : 0;
+        if (b + len > *n)
+            len = *n - b;
+        for (i = 0; i < len; i++)
+            (*x)[i] = (*x)[b + i];
+        *n = len;
+        *pre = (size_t)o - b;
+        res->shots_found = sr.n_found;
+        res->shots_used = 1;
+    }
+    se_stack_result_free(&sr);
+    return SE_OK;
+}
+
+/* Least squares of groups of overlapping echoes (fitecho.h) on the response x [size: n]. A group
+ * is a run of peaks less than one pulse length apart; the other echoes and the direct arrival are
+ * subtracted from its window first. The fit replaces CLEAN's estimates when the group holds echoes
+ * closer than the main lobe (2 hw), or when BIC splits or merges it. A lone peak is only tried for
+ * a split when split_thr is finite (not on noise-floored records, where the model's own residue
+ * would be fitted); added echoes must exceed split_thr. Groups touching clipped samples keep
+ * CLEAN's estimates. *lag_sd, *amp_sd: [size: *npeaks],
+ * NaN where CLEAN's estimate was kept. */
+static se_status se_refit_overlaps(const double *x, size_t n, const se_echo_model *mdl,
+                                   const se_locate_result *res, const se_peak *direct,
+                                   double split_thr, double hw, se_peak **peaks,
+                                   size_t *npeaks, double **lag_sd, double **amp_sd,
+                                   se_error *err)
+{
+    size_t m = se_echo_model_length(mdl), np = *npeaks, g0, g1, i, j, nout = 0, cap;
+    se_peak *in = *peaks, *out = NULL;
+    double *lsd = NULL, *asd = NULL, *w = NULL;
+    se_echo init[16];
+    se_status st = SE_OK;
+
+    cap = np + 16;
+    out = se_calloc(cap, sizeof *out, "fitted peaks", err);
+    lsd = se_calloc(cap, sizeof *lsd, "fitted peaks", err);
+    asd = se_calloc(cap, sizeof *asd, "fitted peaks", err);
+    w = se_calloc(4 * m + 8, sizeof *w, "fit window", err);
+    if (out == NULL || lsd == NULL || asd == NULL || w == NULL) {
+        st = SE_ERR_NOMEM;
+        goto fail;
+    }
+    for (g0 = 0; g0 < np; g0 = g1) {
+        double lo, hi, bb, ee;
+        size_t b, e, len, ng, no = 0, q;
+        int close = 0, keep = 1;
+        se_echo *fit = NULL;
+        se_fitecho_config fc;
+        for (g1 = g0 + 1; g1 < np && in[g1].lag - in[g1 - 1].lag < (double)m; g1++)
+            if (in[g1].lag - in[g1 - 1].lag < 2.0 * hw)
+                close = 1;
+        ng = g1 - g0;
+        /* a lone peak is tried for a split only when strong (10 thresholds): near the threshold
+         * the noise, not a second echo, decides */
+        if (ng > 8 || (ng == 1 && !(fabs(in[g0].amplitude) > 10.0 * split_thr)))
+            goto keep_clean;
+        lo = in[g0].lag;
+        hi = in[g1 - 1].lag;
+        bb = floor(lo - 0.5 * (double)m);
+        ee = ceil(hi + 1.5 * (double)m);
+        b = bb > 0.0 ? (size_t)bb : 0;
+        e = ee < (double)n ? (size_t)ee : n;
+        len = e > b ? e - b : 0;
+        if (len < 16 || len > 4 * m + 8 || se_window_clipped(res, b, len))
+            goto keep_clean; /* a clipped echo does not follow the model */
+        /* the window with every other echo (and the direct arrival) taken out */
+        for (i = 0; i < len; i++)
+            w[i] = x[b + i];
+        for (j = 0; j <= np; j++) {
+            const se_peak *o = j < np ? &in[j] : direct;
+            if (j >= g0 && j < g1)
+                continue;
+            if (o->lag + (double)m + 2.0 < (double)b || o->lag - 2.0 > (double)e)
+                continue;
+            for (i = 0; i < len; i++)
+                w[i] -= o->amplitude * se_echo_model_value(mdl, (double)(b + i) - o->lag, NULL);
+        }
+        for (q = 0; q < ng; q++) {
+            init[q].lag = in[g0 + q].lag - (double)b;
+            init[q].amplitude = in[g0 + q].amplitude;
+        }
+        se_fitecho_config_init(&fc);
+        fc.begin = 0;
+        fc.end = len;
+        /* the noise from the window's own residual: the record's sigma may be too low where the
+         * noise is not stationary, and BIC would then fit noise as echoes */
+        fc.sigma = 0.0;
+        {
+            double amax = 0.0;
+            for (q = 0; q < ng; q++)
+                amax = fmax(amax, fabs(in[g0 + q].amplitude));
+            fc.max_echoes = amax > 10.0 * split_thr ? (ng + 2 < 16 ? ng + 2 : 16) : ng;
+        }
+        fc.min_amplitude = isfinite(split_thr) ? split_thr : 0.0;
+        fc.min_separation = 0.25 * hw;
+        if (se_fitecho(mdl, w, len, &fc, init, ng, &fit, &no, NULL, NULL, err) != SE_OK) {
+            free(fit);
+            if (err != NULL && err->code == SE_ERR_NOMEM) {
+                st = SE_ERR_NOMEM;
+                goto fail;
+            }
+            goto keep_clean; /* a fit that fails leaves CLEAN's estimates */
+        }
+        if (no == 0 || (no == ng && !close) || (no > ng && !isfinite(split_thr)))
+            keep = 0;
+        if (keep) {
+            if (nout + no > cap) {
+                free(fit);
+                goto keep_clean;
+            }
+            for (q = 0; q < no; q++) {
+                out[nout].lag = fit[q].lag + (double)b;
+                out[nout].amplitude = fit[q].amplitude;
+                out[nout].index = (size_t)floor(out[nout].lag + 0.5);
+                lsd[nout] = fit[q].lag_sd;
+                asd[nout] = fit[q].amplitude_sd;
+                nout++;
+            }
+            free(fit);
+            continue;
+        }
+        free(fit);
+    keep_clean:
+        for (q = g0; q < g1; q++) {
+            if (nout == cap)
+                break;
+            out[nout] = in[q];
+            lsd[nout] = asd[nout] = NAN;
+            nout++;
+        }
+    }
+    free(w);
+    free(*peaks);
+    *peaks = out;
+    *npeaks = nout;
+    *lag_sd = lsd;
+    *amp_sd = asd;
+    return SE_OK;
+fail:
+    free(out);
+    free(lsd);
+    free(asd);
+    free(w);
+    return st;
+}
+
+/* Source-end coefficient from the data: the strongest peak i (amplitude A_i relative to the
+ * outgoing pulse, r_s = 0 assumed) and a peak at twice its delay after the direct arrival:
+ * A_i = (1 + r_s) r_i g, A_2 = (1 + r_s) r_s r_i^2 g^2, so q = A_2 / A_i^2 = r_s / (1 + r_s)
+ * whatever the loss g, and r_s = q / (1 - q). *found = 0 (and 0 returned) when there is no such
+ * peak above the threshold or the estimate falls outside [-1, 1]. */
+static double se_estimate_source(const se_peak *peaks, size_t npeaks, double lag0, double a0,
+                                 double hw, double thr, int *found)
+{
+    size_t i, best = SIZE_MAX;
+    double ai, t2, tol, q, rs;
+    *found = 0;
+    for (i = 0; i < npeaks; i++)
+        if (best == SIZE_MAX || fabs(peaks[i].amplitude) > fabs(peaks[best].amplitude))
+            best = i;
+    if (best == SIZE_MAX)
+        return 0.0;
+    ai = peaks[best].amplitude / a0;
+    t2 = lag0 + 2.0 * (peaks[best].lag - lag0);
+    tol = fmax(2.0, 0.5 * hw);
+    for (i = best + 1; i < npeaks; i++) {
+        if (fabs(peaks[i].lag - t2) > tol || fabs(peaks[i].amplitude) < thr)
+            continue;
+        q = (peaks[i].amplitude / a0) / (ai * ai);
+        if (!(q < 0.5) || q <= -1e9) /* r_s <= 1 needs q <= 1/2 */
+            continue;
+        rs = q / (1.0 - q);
+        if (rs >= -1.0 && rs <= 1.0) {
+            *found = 1;
+            return rs;
+        }
+    }
+    return 0.0;
+}
+
+/* Losses: the attenuation given, or estimated from the farthest matched expected event with a
+ * known coefficient of at least 0.3 (g = |seen / amplitude expected|, the expected amplitude
+ * carrying the two-way transmissions in front); then every event's coefficient at the
+ * discontinuity: reflection / (g(d) prod (1 - r_j^2)) over the primaries before it. */
+static void se_apply_losses(const se_locate_config *cfg, se_locate_result *res)
+{
+    double alpha = cfg->attenuation_db_per_m, trans = 1.0; /* dB/m one way */
+    size_t i;
+    res->attenuation_db_per_m = alpha;
+    res->attenuation_estimated = 0;
+    if (isnan(alpha) && cfg->expected != NULL && res->expected_found != NULL) {
+        size_t k, best = SIZE_MAX;
+        for (k = 0; k < res->n_expected; k++) {
+            const se_expected_event *xe = &cfg->expected[k];
+            if (res->expected_found[k] < 0 || !xe->has_reflection || fabs(xe->amplitude) < 0.3 ||
+                !(xe->distance_m > 0.0))
+                continue;
+            if (best == SIZE_MAX || xe->distance_m > cfg->expected[best].distance_m)
+                best = k;
+        }
+        if (best != SIZE_MAX) {
+            const se_event *ev = &res->events[res->expected_found[best]];
+            double g = fabs(ev->reflection / cfg->expected[best].amplitude);
+            if (g > 0.0 && g <= 1.0 + 3.0 * fabs(ev->reflection_uncertainty /
+                                                 cfg->expected[best].amplitude)) {
+                alpha = -20.0 * log10(fmin(g, 1.0)) / (2.0 * cfg->expected[best].distance_m);
+                res->attenuation_db_per_m = alpha;
+                res->attenuation_estimated = 1;
+            }
+        }
+    }
+    for (i = 0; i < res->n_events; i++) {
+        se_event *ev = &res->events[i];
+        double g = isfinite(alpha) ? pow(10.0, -2.0 * alpha * ev->distance_m / 20.0) : 1.0;
+        ev->reflection_at_discontinuity = ev->reflection / (g * trans);
+        if (!ev->multiple && fabs(ev->reflection_at_discontinuity) < 1.0)
+            trans *= 1.0 - ev->reflection_at_discontinuity * ev->reflection_at_discontinuity;
+    }
+}
+
+/* Delay and distance uncertainty of an event from its lag uncertainty sl and the direct
+ * arrival's sl0 (samples), as se_locate_events does from the bound. */
+static se_status se_event_uncertainty(const se_distmap *map, double z, double sl, double sl0,
+                                      double rate_hz, se_event *ev, se_error *err)
+{
+    double vloc, sd_v, sd_t;
+    se_status st;
+    ev->delay_uncertainty_s = sqrt(sl * sl + sl0 * sl0) / rate_hz;
+    st = se_distmap_speed(map, ev->distance_m, &vloc, err);
+    if (st == SE_OK)
+        st = se_distmap_distance_sigma(map, ev->delay_s, &sd_v, err);
+    if (st != SE_OK)
+        return st;
+    sd_t = 0.5 * vloc * ev->delay_uncertainty_s;
+    ev->distance_uncertainty_m = z * sqrt(sd_t * sd_t + sd_v * sd_v);
     return SE_OK;
 }
