@@ -36,6 +36,7 @@ static void test_new_reflector(void);
 static void test_no_change(void);
 static void test_strength_and_gone(void);
 static void test_errors(void);
+static void test_moved(void);
 
 static int tc_make(tc_rec *r, const se_sim_reflector *refl, size_t nrefl, double speed, double gain,
                    unsigned long seed)
@@ -220,6 +221,40 @@ static void test_strength_and_gone(void)
     tc_free(&n);
 }
 
+/* The clamp slid 0.5 m down the line (less than the 1.2 m resolution cell): one change, moved, by
+ * +0.5 m (to 5 cm: the delays are good to a fraction of a millimetre at this SNR). */
+static void test_moved(void)
+{
+    se_sim_reflector now_refl[2] = {{43.20, -0.35}, {96.30, 0.12}};
+    tc_rec b, n;
+    se_locate_result rb, rn;
+    se_compare_result cr;
+    se_error err;
+    size_t i, faults = 0;
+    memset(&rb, 0, sizeof rb);
+    memset(&rn, 0, sizeof rn);
+    CHECK(tc_make(&b, tc_base, 2, TC_V, 1.0, 41));
+    CHECK(tc_make(&n, now_refl, 2, TC_V * 1.001, 1.0, 42));
+    CHECK(tc_locate(&b, &rb));
+    CHECK(tc_locate(&n, &rn));
+    CHECK(se_compare(&rb, &rn, NULL, &cr, &err) == SE_OK);
+    for (i = 0; i < cr.n_changes; i++) {
+        const se_change *c = &cr.changes[i];
+        if (c->secondary)
+            continue;
+        faults++;
+        CHECK(c->kind == SE_CHANGE_MOVED);
+        CHECK_CLOSE(c->shift_m, 0.5 / 1.001, 0.05, "clamp moved by");
+        CHECK_CLOSE(c->distance_m, 43.20 / 1.001, 0.05, "clamp now at");
+    }
+    CHECK(faults == 1);
+    se_compare_result_free(&cr);
+    se_locate_result_free(&rb);
+    se_locate_result_free(&rn);
+    tc_free(&b);
+    tc_free(&n);
+}
+
 static void test_errors(void)
 {
     se_locate_result a, b;
@@ -240,5 +275,6 @@ int main(void)
     test_new_reflector();
     test_no_change();
     test_strength_and_gone();
+    test_moved();
     return se_test_done("test_compare");
 }

@@ -5,8 +5,8 @@
  *     refined to a fraction of a sample by the locator (se_locate_result.t0_s);
  *  2. speed change by time-stretch: now delay = stretch x baseline delay. A 1-D search maximises
  *     the correlation of the two traces over stretch in [1 - max_stretch, 1 + max_stretch], then
- *     the strongest common primary echoes refine it by weighted least squares (one pass of outlier
- *     rejection so that a moved reflector does not pull the fit). The baseline is re-sampled (cubic
+ *     the common primary echoes refine it: their median ratio of delays, then weighted least
+ *     squares over the pairs that agree with it (so that a moved reflector does not pull the fit). The baseline is re-sampled (cubic
  *     interpolation) with a piecewise time shift: the shift is held constant over each baseline
  *     echo, so the pulse keeps its shape (a speed change moves echoes, it does not widen them);
  *  3. gain by least squares over the searched delays: gain = <now, b> / <b, b>;

@@ -274,55 +274,74 @@ se_status se_compare(const se_locate_result *baseline, const se_locate_result *n
         c.stretch = 0.5 * (lo + hi);
     }
 
-    /* Refine from the strongest common primary echoes: weighted least squares of now delay on
-     * baseline delay through the origin, then once more without pairs off by > 3 sigma. */
+    /* Refine from the strongest common primary echoes: pair them under the searched stretch, take
+     * the median ratio of now delay to baseline delay, then weighted least squares through the
+     * origin over the pairs that agree with it (within 3 sigma and a quarter sample), so that a
+     * reflector that moved does not pull the fit. */
     {
-        int pass;
-        double s_est = c.stretch;
-        for (pass = 0; pass < 2; pass++) {
-            double swnb = 0.0, swbb = 0.0;
-            size_t used = 0;
-            npair = 0;
-            for (i = 0; i < baseline->n_events; i++) {
-                const se_event *eb = &baseline->events[i];
-                double pred = s_est * eb->delay_s, bestd = INFINITY, var, w;
-                const se_event *en = NULL;
-                size_t jn = 0;
-                if (eb->multiple || eb->delay_s < from || pred > to)
+        double *q = se_calloc(baseline->n_events + 1, sizeof *q, "stretch ratios", err);
+        double med, swnb = 0.0, swbb = 0.0;
+        size_t kept = 0;
+        if (q == NULL) {
+            st = SE_ERR_NOMEM;
+            goto done;
+        }
+        npair = 0;
+        for (i = 0; i < baseline->n_events; i++) {
+            const se_event *eb = &baseline->events[i];
+            double pred = c.stretch * eb->delay_s, bestd = INFINITY;
+            int jn = -1;
+            if (eb->multiple || eb->delay_s < from || pred > to || !(eb->delay_s > 0.0))
+                continue;
+            for (j = 0; j < now->n_events; j++) {
+                const se_event *e = &now->events[j];
+                if (e->multiple || e->polarity != eb->polarity)
                     continue;
-                for (j = 0; j < now->n_events; j++) {
-                    const se_event *e = &now->events[j];
-                    if (e->multiple || e->polarity != eb->polarity)
-                        continue;
-                    if (fabs(e->delay_s - pred) < bestd) {
-                        bestd = fabs(e->delay_s - pred);
-                        en = e;
-                        jn = j;
-                    }
+                if (fabs(e->delay_s - pred) < bestd) {
+                    bestd = fabs(e->delay_s - pred);
+                    jn = (int)j;
                 }
-                if (en == NULL || bestd > fmax(now->resolution_s, baseline->resolution_s))
-                    continue;
-                var = en->delay_uncertainty_s * en->delay_uncertainty_s +
-                      s_est * s_est * eb->delay_uncertainty_s * eb->delay_uncertainty_s;
+            }
+            if (jn < 0 || bestd > fmax(now->resolution_s, baseline->resolution_s))
+                continue;
+            pair_n[npair] = jn;
+            pair_b[npair] = (int)i;
+            q[npair] = now->events[jn].delay_s / eb->delay_s;
+            npair++;
+        }
+        if (npair > 0) {
+            double *qs = se_calloc(npair, sizeof *qs, "stretch ratios", err);
+            if (qs == NULL) {
+                free(q);
+                st = SE_ERR_NOMEM;
+                goto done;
+            }
+            memcpy(qs, q, npair * sizeof *qs);
+            qsort(qs, npair, sizeof *qs, se_dbl_cmp);
+            med = npair % 2 ? qs[npair / 2] : 0.5 * (qs[npair / 2 - 1] + qs[npair / 2]);
+            free(qs);
+            for (j = 0; j < npair; j++) {
+                const se_event *en = &now->events[pair_n[j]], *eb = &baseline->events[pair_b[j]];
+                double var = en->delay_uncertainty_s * en->delay_uncertainty_s +
+                             med * med * eb->delay_uncertainty_s * eb->delay_uncertainty_s;
+                double w;
                 if (!(var > 0.0))
                     var = 1.0 / (c.rate * c.rate);
-                if (pass == 1 && bestd > 3.0 * sqrt(var) + 0.05 / c.rate)
+                if (fabs(en->delay_s - med * eb->delay_s) > 3.0 * sqrt(var) + 0.25 / c.rate)
                     continue;
                 w = 1.0 / var;
                 swnb += w * en->delay_s * eb->delay_s;
                 swbb += w * eb->delay_s * eb->delay_s;
-                pair_n[npair] = (int)jn;
-                pair_b[npair] = (int)i;
-                npair++;
-                used++;
+                pair_n[kept] = pair_n[j];
+                pair_b[kept] = pair_b[j];
+                kept++;
             }
-            if (used == 0 || !(swbb > 0.0))
-                break;
-            s_est = swnb / swbb;
-            out->n_common = used;
         }
-        if (out->n_common > 0 && fabs(s_est - 1.0) <= cfg->max_stretch) {
-            c.stretch = s_est;
+        free(q);
+        npair = kept;
+        out->n_common = kept;
+        if (kept > 0 && swbb > 0.0 && fabs(swnb / swbb - 1.0) <= cfg->max_stretch) {
+            c.stretch = swnb / swbb;
             out->stretch_from_echoes = 1;
         }
     }
