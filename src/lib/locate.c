@@ -627,6 +627,7 @@ static void se_label_multiples(se_event *ev, size_t n, double source_r, double r
                     continue;
                 /* source end: down, i, source end, j (and the reverse path: twice when i != j) */
                 if (source_r != 0.0) {
+                    size_t k2;
                     tp = ev[i].delay_s + ev[j].delay_s;
                     pred = source_r * ri * rj * (i == j ? 1.0 : 2.0);
                     if (fabs(te - tp) < tol && pred * ae > 0.0 && fabs(ae) < 3.0 * fabs(pred) &&
@@ -635,6 +636,25 @@ static void se_label_multiples(se_event *ev, size_t n, double source_r, double r
                         ev[e].multiple_of[0] = (int)i;
                         ev[e].multiple_of[1] = (int)j;
                         break;
+                    }
+                    /* higher orders: a multiple k2 followed by one more bounce off the source
+                     * end and primary j, time t_k2 + t_j, about r_s a_k2 r_j (several paths may
+                     * add up: the factor-of-three window) */
+                    if (i == j) {
+                        for (k2 = 0; k2 < e && !ev[e].multiple; k2++) {
+                            if (!ev[k2].multiple)
+                                continue;
+                            tp = ev[k2].delay_s + ev[j].delay_s;
+                            pred = source_r * ev[k2].reflection * rj;
+                            if (fabs(te - tp) < tol && pred * ae > 0.0 &&
+                                fabs(ae) < 3.0 * fabs(pred) && fabs(ae) > fabs(pred) / 3.0) {
+                                ev[e].multiple = 1;
+                                ev[e].multiple_of[0] = (int)k2;
+                                ev[e].multiple_of[1] = (int)j;
+                            }
+                        }
+                        if (ev[e].multiple)
+                            break;
                     }
                 }
                 /* peg-leg: an event k at or beyond j (primary or multiple) with one more bounce
