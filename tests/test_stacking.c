@@ -9,6 +9,9 @@
  *   the end of the record are all found and rejected for their reason; the eight good shots are
  *   stacked.
  * - The pulse channel as trigger gives the same onsets.
+ * - se_locate stacks by itself: the eight shots as one recording (synthetic and self references)
+ *   give shots_used 8, a gain within 1 dB of 9.03 dB and the two echoes at d = v t / 2
+ *   (REFERENCE.md 1), nothing at the later shots.
  * Tolerances: 1 dB from issue #4; the 5-sigma onset tolerance is common practice, no source. */
 #include <gsl/gsl_randist.h>
 #include <gsl/gsl_rng.h>
@@ -17,6 +20,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "strandecho/locate.h"
 #include "strandecho/stack.h"
 #include "testutil.h"
 
@@ -31,6 +35,7 @@ static double sk_ricker(double t);
 static void sk_shot(double *x, size_t n, double onset, double gain);
 static void test_eight_shots(void);
 static void test_outliers(void);
+static void test_locate_stacks(void);
 
 static double sk_ricker(double t)
 {
@@ -199,9 +204,62 @@ out:
     free(x);
 }
 
+static void test_locate_stacks(void)
+{
+    size_t n = 8 * 2000 + 1500, i, j, pass;
+    double *x = calloc(n, sizeof *x), pulse[SK_M];
+    gsl_rng *rng = gsl_rng_alloc(gsl_rng_mt19937);
+    se_locate_config cfg;
+    se_locate_result res;
+    se_error err;
+    if (!CHECK(x != NULL && rng != NULL))
+        goto out;
+    gsl_rng_set(rng, 1234);
+    for (j = 0; j < SK_M; j++)
+        pulse[j] = sk_ricker((double)j - SK_HALF);
+    for (i = 0; i < 8; i++)
+        sk_shot(x, n, 200.0 + SK_INTERVAL * (double)i + gsl_rng_uniform(rng) * 7.0, 1.0);
+    for (i = 0; i < n; i++)
+        x[i] += gsl_ran_gaussian(rng, SK_SIGMA);
+    for (pass = 0; pass < 2; pass++) {
+        se_locate_config_init(&cfg);
+        cfg.speed_m_s = 100.0; /* at 1 kHz: 500 samples = 25 m, 900 samples = 45 m */
+        if (pass == 0) {
+            cfg.reference = pulse;
+            cfg.reference_length = SK_M;
+            cfg.reference_kind = SE_REF_SYNTHETIC;
+        }
+        if (!CHECK(se_locate(x, n, 1000.0, &cfg, &res, &err) == SE_OK)) {
+            fprintf(stderr, "  %s\n", err.message);
+            continue;
+        }
+        printf("locate (%s reference): shots %zu found, %zu used, gain %.2f dB (expected %.2f), "
+               "%zu events\n",
+               pass == 0 ? "synthetic" : "self", res.shots_found, res.shots_used, res.stack_gain_db,
+               res.stack_expected_gain_db, res.n_events);
+        CHECK(res.shots_found == 8 && res.shots_used == 8);
+        CHECK_CLOSE(res.stack_gain_db, 10.0 * log10(8.0), 1.0, "locate: stacking gain, dB");
+        if (CHECK(res.n_events == 2)) {
+            CHECK_CLOSE(res.events[0].distance_m, 25.0, 0.05, "locate: first echo, m");
+            CHECK_CLOSE(res.events[1].distance_m, 45.0, 0.05, "locate: second echo, m");
+            CHECK(res.events[0].polarity == 1 && res.events[1].polarity == -1);
+        }
+        se_locate_result_free(&res);
+    }
+    /* stacking off: the later shots are what the locator sees */
+    cfg.stacking = SE_STACKING_OFF;
+    if (CHECK(se_locate(x, n, 1000.0, &cfg, &res, &err) == SE_OK))
+        CHECK(res.shots_used == 1 && res.n_events > 2);
+    se_locate_result_free(&res);
+out:
+    gsl_rng_free(rng);
+    free(x);
+}
+
 int main(void)
 {
     test_eight_shots();
     test_outliers();
+    test_locate_stacks();
     return se_test_done("test_stacking");
 }
