@@ -12,6 +12,9 @@
  *   tether (lattice model, simulate.h), 0.6 of the main-lobe width apart, at 40 dB: two primary
  *   events, right signs, anything after them labelled a multiple, each within 4 of its reported standard uncertainties (plus the simulator's time
  *   quantum) of its true distance.
+ * - Dead zone: a reflector (r = +0.4) at half the dead-zone distance is reported in
+ *   dead_zone_events (flagged, low confidence, sign right, within 4 reported sd plus a lattice cell),
+ *   not in events; a line with nothing there reports no dead-zone event.
  * The issue (#4) sets the 0.6 main-lobe and 40 dB case; the 4-sigma and 10 % tolerances are
  * common practice, no source. */
 #include <gsl/gsl_randist.h>
@@ -41,6 +44,7 @@ static void test_model(void);
 static void test_two_echoes(void);
 static void test_one_echo(void);
 static void test_splice_clamp(void);
+static void test_dead_zone(void);
 
 /* Ricker wavelet (1 - 2 (pi f0 t)^2) exp(-(pi f0 t)^2), t in samples. */
 static double ov_ricker(double t)
@@ -322,11 +326,41 @@ static void test_splice_clamp(void)
     se_locate_result_free(&res);
 }
 
+static void test_dead_zone(void)
+{
+    se_sim_reflector far = {40.0, -0.3}, two[2];
+    se_locate_result res;
+    double dz, q = 0.5 * 141.4 / 48000.0 * 0.5; /* half a lattice cell, m [calc] */
+    if (!ov_locate(&far, 1, &res))
+        return;
+    dz = res.dead_zone_m;
+    CHECK(res.n_dead_zone_events == 0);
+    se_locate_result_free(&res);
+    two[0].distance_m = 0.5 * dz;
+    two[0].reflection = 0.4;
+    two[1] = far;
+    if (!ov_locate(two, 2, &res))
+        return;
+    printf("dead zone %.3f m, reflector at %.3f m: %zu dead-zone events, %zu events\n", dz,
+           0.5 * dz, res.n_dead_zone_events, res.n_events);
+    if (CHECK(res.n_dead_zone_events == 1)) {
+        const se_event *ev = &res.dead_zone_events[0];
+        printf("  %.4f m, r %+.3f, sd %.4f m\n", ev->distance_m, ev->reflection,
+               0.5 * 141.4 * ev->delay_uncertainty_s);
+        CHECK(ev->in_dead_zone && ev->low_confidence && ev->polarity == 1);
+        CHECK_CLOSE(ev->distance_m, 0.5 * dz, 4.0 * 0.5 * 141.4 * ev->delay_uncertainty_s + q,
+                    "dead-zone echo distance, m");
+    }
+    CHECK(res.n_events >= 1 && res.events[0].distance_m > dz);
+    se_locate_result_free(&res);
+}
+
 int main(void)
 {
     test_model();
     test_two_echoes();
     test_one_echo();
     test_splice_clamp();
+    test_dead_zone();
     return se_test_done("test_overlap");
 }

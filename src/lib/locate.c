@@ -44,6 +44,11 @@ static se_status se_refit_overlaps(const double *x, size_t n, const se_echo_mode
 static double se_estimate_source(const se_peak *peaks, size_t npeaks, double lag0, double a0,
                                  double hw, double thr, int *found);
 static void se_apply_losses(const se_locate_config *cfg, se_locate_result *res);
+static se_status se_dead_zone_scan(const double *x, size_t n, const se_echo_model *mdl,
+                                   const se_peak *direct, const se_peak *peaks, size_t npeaks,
+                                   size_t dead, double thr, double sigma, double hw, double rs,
+                                   double rate_hz, double z, const se_distmap *map,
+                                   se_locate_result *res, se_error *err);
 static se_status se_event_uncertainty(const se_distmap *map, double z, double sl, double sl0,
                                        double rate_hz, se_event *ev, se_error *err);
 
@@ -513,12 +518,15 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
         goto done;
 
     /* Overlapping echoes: least squares on the response, started from CLEAN (fitecho.h). */
-    if (cfg->fit_overlaps && m <= SE_FIT_MAX_PULSE && npeaks > 0) {
+    if (m <= SE_FIT_MAX_PULSE && ((cfg->fit_overlaps && npeaks > 0) ||
+                                  (cfg->reference_kind == SE_REF_CHANNEL && !res->noise_floored))) {
         mdl = se_echo_model_create(ref, m, err);
         if (mdl == NULL) {
             st = err ? err->code : SE_ERR_NOMEM;
             goto done;
         }
+    }
+    if (mdl != NULL && cfg->fit_overlaps && npeaks > 0) {
         st = se_refit_overlaps(x, n, mdl, res, &direct,
                                res->noise_floored ? INFINITY : thr, se_acf_mainlobe_half_width(acf),
                                &peaks, &npeaks, &lag_sd, &amp_sd, err);
@@ -571,6 +579,15 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
     res->source_reflection = lc.source_reflection;
     res->source_reflection_estimated = rs_unknown && rs_found;
     se_apply_losses(&lc, res);
+    /* Echoes inside the dead zone: flagged, never hidden (only with the pulse channel as the
+     * reference, whose shape is the direct arrival's, and on records with measured noise). */
+    if (mdl != NULL && cfg->reference_kind == SE_REF_CHANNEL && !res->noise_floored) {
+        st = se_dead_zone_scan(x, n, mdl, &direct, peaks, npeaks, dead, thr, sigma,
+                               se_acf_mainlobe_half_width(acf), lc.source_reflection, rate_hz,
+                               gsl_cdf_ugaussian_Pinv(0.5 + 0.5 * cfg->confidence), map, res, err);
+        if (st != SE_OK)
+            goto done;
+    }
     if (cfg->keep_trace) {
         /* hand the correlation over, scaled to reflection units like res->threshold */
         double g = 1.0 / (a0 * one_plus_rs);
@@ -1126,5 +1143,108 @@ static se_status se_event_uncertainty(const se_distmap *map, double z, double sl
         return st;
     sd_t = 0.5 * vloc * ev->delay_uncertainty_s;
     ev->distance_uncertainty_m = z * sqrt(sd_t * sd_t + sd_v * sd_v);
+    return SE_OK;
+}
+
+/* Echoes inside the dead zone: the response from half a pulse before the direct arrival to one
+ * pulse past the dead zone, the echoes found beyond it subtracted, fitted from the direct arrival
+ * alone with echoes added by BIC (fitecho.h, at most 3 more, each above the threshold). Fitted
+ * echoes more than a quarter of the main-lobe half width (fitecho's separation limit) after the
+ * direct arrival and before the end of the dead zone go to res->dead_zone_events, low confidence. */
+static se_status se_dead_zone_scan(const double *x, size_t n, const se_echo_model *mdl,
+                                   const se_peak *direct, const se_peak *peaks, size_t npeaks,
+                                   size_t dead, double thr, double sigma, double hw, double rs,
+                                   double rate_hz, double z, const se_distmap *map,
+                                   se_locate_result *res, se_error *err)
+{
+    size_t m = se_echo_model_length(mdl), b, e, len, i, j, no = 0, nd = 0;
+    double bb = floor(direct->lag - 0.5 * (double)m), *w;
+    se_echo init, *fit = NULL;
+    se_fitecho_config fc;
+    se_status st;
+    double origin = direct->lag, a_direct = direct->amplitude;
+
+    b = bb > 0.0 ? (size_t)bb : 0;
+    e = (size_t)floor(direct->lag) + dead + m;
+    if (e > n)
+        e = n;
+    if (e <= b + 16)
+        return SE_OK;
+    len = e - b;
+    w = se_calloc(len, sizeof *w, "dead-zone window", err);
+    if (w == NULL)
+        return SE_ERR_NOMEM;
+    for (i = 0; i < len; i++)
+        w[i] = x[b + i];
+    for (j = 0; j < npeaks; j++)
+        if (peaks[j].lag - 2.0 < (double)e)
+            for (i = 0; i < len; i++)
+                w[i] -= peaks[j].amplitude * se_echo_model_value(mdl, (double)(b + i) - peaks[j].lag,
+                                                                 NULL);
+    init.lag = direct->lag - (double)b;
+    init.amplitude = direct->amplitude;
+    se_fitecho_config_init(&fc);
+    fc.begin = 0;
+    fc.end = len;
+    fc.max_echoes = 4;
+    fc.min_amplitude = thr;
+    fc.min_separation = 0.25 * hw;
+    st = se_fitecho(mdl, w, len, &fc, &init, 1, &fit, &no, NULL, NULL, err);
+    free(w);
+    if (st != SE_OK) {
+        free(fit);
+        return st == SE_ERR_NOMEM ? st : SE_OK; /* a failed fit reports nothing */
+    }
+    /* the time origin: the fitted direct arrival (CLEAN's is pulled by the echoes on it) */
+    {
+        double best = INFINITY;
+        for (i = 0; i < no; i++)
+            if (fabs(fit[i].lag + (double)b - direct->lag) < best) {
+                best = fabs(fit[i].lag + (double)b - direct->lag);
+                origin = fit[i].lag + (double)b;
+                a_direct = fit[i].amplitude;
+            }
+    }
+    for (i = 0; i < no; i++) {
+        double lag = fit[i].lag + (double)b - origin;
+        if (lag > 0.25 * hw && lag < (double)dead)
+            nd++;
+    }
+    if (nd > 0) {
+        res->dead_zone_events = se_calloc(nd, sizeof *res->dead_zone_events, "dead-zone events", err);
+        if (res->dead_zone_events == NULL) {
+            free(fit);
+            return SE_ERR_NOMEM;
+        }
+    }
+    for (i = 0, j = 0; i < no && j < nd; i++) {
+        se_event *ev = &res->dead_zone_events[j];
+        double lag = fit[i].lag + (double)b - origin;
+        if (!(lag > 0.25 * hw && lag < (double)dead))
+            continue;
+        ev->lag_samples = lag;
+        ev->delay_s = lag / rate_hz;
+        ev->delay_uncertainty_s = fit[i].lag_sd / rate_hz;
+        ev->reflection = fit[i].amplitude / a_direct / (1.0 + rs);
+        ev->reflection_uncertainty = fit[i].amplitude_sd / fabs(a_direct) / fabs(1.0 + rs);
+        ev->reflection_at_discontinuity = ev->reflection;
+        ev->polarity = ev->reflection >= 0.0 ? 1 : -1;
+        ev->impedance_increase = ev->reflection * (double)se_quantity_sign(res->quantity) < 0.0;
+        ev->snr_db = 20.0 * log10(fabs(fit[i].amplitude) / sigma);
+        ev->low_confidence = 1;
+        ev->in_dead_zone = 1;
+        ev->fitted = 1;
+        ev->multiple_of[0] = ev->multiple_of[1] = -1;
+        ev->expected = -1;
+        st = se_distmap_distance(map, ev->delay_s, &ev->distance_m, err);
+        if (st != SE_OK) {
+            free(fit);
+            return st;
+        }
+        ev->distance_uncertainty_m = z * 0.5 * res->speed_m_s * ev->delay_uncertainty_s;
+        j++;
+    }
+    res->n_dead_zone_events = j;
+    free(fit);
     return SE_OK;
 }
