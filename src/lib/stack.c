@@ -128,7 +128,7 @@ static int se_segment_clipped(const double *x, size_t n, size_t b, size_t e, dou
 }
 
 /* out[j] = x(onset - pre + j), j < len, by integer offset and a phase ramp for the fraction:
- * X(w) e^{i w d} on a zero-padded window with SE_STACK_MARGIN samples either side. */
+ * X(w) e^{i w d} on a zero-padded window with SE_STACK_MARGIN tapered samples either side. */
 static se_status se_align(const double *x, size_t n, double onset, size_t pre, size_t len,
                           double *out, se_error *err)
 {
@@ -159,9 +159,18 @@ static se_status se_align(const double *x, size_t n, double onset, size_t pre, s
         fftw_free(spec);
         return se_fail(err, SE_ERR_NOMEM, "stack: FFT planning failed");
     }
+    /* the margins are tapered (raised cosine) so that whatever the window cuts through (the
+     * next shot, the record's ends) does not ring into the kept part when shifted */
     for (i = 0; i < P; i++) {
         long t = base + (long)i;
-        buf[i] = (t >= 0 && (size_t)t < n) ? x[t] : 0.0;
+        double v = (t >= 0 && (size_t)t < n) ? x[t] : 0.0, wgt = 1.0;
+        if (i < SE_STACK_MARGIN)
+            wgt = 0.5 - 0.5 * cos(SE_PI * (double)i / SE_STACK_MARGIN);
+        else if (i >= SE_STACK_MARGIN + len && i < len + 2 * SE_STACK_MARGIN)
+            wgt = 0.5 + 0.5 * cos(SE_PI * (double)(i - SE_STACK_MARGIN - len) / SE_STACK_MARGIN);
+        else if (i >= len + 2 * SE_STACK_MARGIN)
+            wgt = 0.0;
+        buf[i] = v * wgt;
     }
     fftw_execute(pf);
     nb = P / 2 + 1;
