@@ -92,7 +92,7 @@ typedef struct se_event {
                                       attenuation over the round trip and by the two-way
                                       transmissions (1 - r^2) of the primaries before it; equals
                                       reflection when the attenuation is unknown and nothing
-                                      lies before it */
+                                      lies before it, and for multiples */
     int fitted;                    /* 1 when the delay and amplitude come from the least-squares
                                       fit of overlapping echoes (fitecho.h) */
     int in_dead_zone;              /* 1 for an echo found inside the dead zone (in

@@ -8,7 +8,8 @@
  *    previous shot (the larger kept inside an interval), and not less than half the median
  *    interval after a stronger trigger (an echo of a strong shot), refined by se_refine_peak;
  *  - segments: from `pre` samples before each onset, length the median interval between
- *    consecutive shots (the last shot: to the end of the record, rejected when shorter);
+ *    consecutive shots, shortened by up to a tenth so that a last shot cut by the end of the record
+ *    still fits (a shot whose segment still runs past the end is rejected as late);
  *  - alignment: each segment is delayed by its fractional onset with the phase ramp
  *    X(w) e^{-i w d} on a zero-padded FFT, so every shot's onset falls on the same sample;
  *  - outliers: a shot is rejected when its segment touches clipped samples (runs of 5 or more equal

@@ -1091,7 +1091,8 @@ static double se_estimate_source(const se_peak *peaks, size_t npeaks, double lag
 /* Losses: the attenuation given, or estimated from the farthest matched expected event with a
  * known coefficient of at least 0.3 (g = |seen / amplitude expected|, the expected amplitude
  * carrying the two-way transmissions in front); then every event's coefficient at the
- * discontinuity: reflection / (g(d) prod (1 - r_j^2)) over the primaries before it. */
+ * discontinuity: reflection / (g(d) prod (1 - r_j^2)) over the primaries before it (multiples are
+ * left as seen). */
 static void se_apply_losses(const se_locate_config *cfg, se_locate_result *res)
 {
     double alpha = cfg->attenuation_db_per_m, trans = 1.0; /* dB/m one way */
@@ -1122,6 +1123,10 @@ static void se_apply_losses(const se_locate_config *cfg, se_locate_result *res)
     for (i = 0; i < res->n_events; i++) {
         se_event *ev = &res->events[i];
         double g = isfinite(alpha) ? pow(10.0, -2.0 * alpha * ev->distance_m / 20.0) : 1.0;
+        if (ev->multiple) { /* no single discontinuity: left as seen */
+            ev->reflection_at_discontinuity = ev->reflection;
+            continue;
+        }
         ev->reflection_at_discontinuity = ev->reflection / (g * trans);
         if (!ev->multiple && fabs(ev->reflection_at_discontinuity) < 1.0)
             trans *= 1.0 - ev->reflection_at_discontinuity * ev->reflection_at_discontinuity;

@@ -301,6 +301,14 @@ se_status se_stack_shots(const double *x, size_t n, const se_stack_config *cfg, 
         if (res->onsets[i] < (double)pre)
             pre = (size_t)floor(res->onsets[i]);
     res->pre = pre;
+    /* a last shot cut by the end of the record by less than a tenth of the segment still counts:
+     * the segment is shortened to what it has */
+    {
+        double o = floor(res->onsets[k - 1]);
+        size_t avail = o >= (double)pre && (size_t)o - pre + 1 < n ? n - ((size_t)o - pre) - 1 : 0;
+        if (avail < len && (double)avail >= 0.9 * (double)len)
+            len = avail;
+    }
     len = len > 2 * SE_STACK_MARGIN ? len : 2 * SE_STACK_MARGIN;
     if (len > n)
         len = n;
