@@ -3,6 +3,8 @@
 
 #include <math.h>
 #include <pthread.h>
+
+#include <fftw3.h>
 #include <stdarg.h>
 #include <stdint.h>
 #include <stdio.h>
@@ -32,7 +34,6 @@ typedef struct se_runner {
     se_survey_item *items;
     size_t n_items, next, done;
     pthread_mutex_t lock;   /* the queue, the progress count */
-    pthread_mutex_t fftw;   /* FFTW planning inside se_locate is not thread-safe */
 } se_runner;
 
 static se_status se_sp_fail(const se_sp *p, const yaml_node_t *node, se_status code, const char *fmt, ...)
@@ -550,13 +551,14 @@ void se_survey_run_config_init(se_survey_run_config *cfg)
     cfg->jobs = 1;
 }
 
-/* Reference, locate (under the runner's FFTW lock) for one recording. it may be NULL (baseline). */
+/* Reference and locate for one recording (FFTW's planner lock is on). it may be NULL (baseline). */
 static se_status se_survey_locate(se_runner *r, const se_survey_line *sl, const char *path,
                                   const se_line *line, const se_expected_event *exp, size_t nexp,
                                   se_locate_result *res, se_survey_item *it, se_error *err)
 {
     se_recording *rec, *pr = NULL;
     se_locate_config cfg;
+    (void)r;
     double *owned = NULL;
     se_status st;
     char desc[160] = "";
@@ -634,9 +636,7 @@ static se_status se_survey_locate(se_runner *r, const se_survey_line *sl, const 
     } else {
         snprintf(desc, sizeof desc, "self (direct arrival in the response)");
     }
-    pthread_mutex_lock(&r->fftw);
     st = se_locate(se_recording_channel(rec, sl->channel - 1), rec->frames, rec->rate, &cfg, res, err);
-    pthread_mutex_unlock(&r->fftw);
     if (st != SE_OK) {
         char why[SE_ERROR_MESSAGE_SIZE];
         snprintf(why, sizeof why, "%s", err->message);
@@ -793,7 +793,11 @@ se_status se_survey_run(const se_survey *survey, const se_survey_run_config *cfg
     jobs = cfg->jobs == 0 ? 1 : cfg->jobs;
     if (jobs > n)
         jobs = n;
-    if (pthread_mutex_init(&r.lock, NULL) != 0 || pthread_mutex_init(&r.fftw, NULL) != 0) {
+    /* FFTW's planner is not thread-safe by itself: this switches on FFTW's own planner lock
+     * (libfftw3_threads), so the workers can run se_locate, which plans, side by side. */
+    fftw_make_planner_thread_safe();
+    fftwf_make_planner_thread_safe();
+    if (pthread_mutex_init(&r.lock, NULL) != 0) {
         free(r.items);
         return se_fail(err, SE_ERR_NOMEM, "survey run: cannot create a mutex");
     }
@@ -815,7 +819,6 @@ se_status se_survey_run(const se_survey *survey, const se_survey_run_config *cfg
         }
     }
     pthread_mutex_destroy(&r.lock);
-    pthread_mutex_destroy(&r.fftw);
     if (st != SE_OK) {
         se_survey_items_free(r.items, r.n_items);
         return st;
