@@ -18,6 +18,7 @@
 #include "strandecho/plot.h"
 #include "strandecho/pulse.h"
 #include "strandecho/recording.h"
+#include "strandecho/stream.h"
 #include "strandecho/report.h"
 #include "strandecho/units.h"
 
@@ -54,6 +55,9 @@ static const char se_locate_usage[] =
     "  --max-events N           at most N events (default 64)\n"
     "Output:\n"
     "  --json PATH              write the result as JSON (- for standard output)\n"
+    "  --memory-limit MIB       largest recording read whole, MiB of samples as doubles (default\n"
+    "                           2048); a larger one is streamed in blocks (needs --pulse-channel)\n"
+    "  --stream                 stream the recording in blocks even when it fits in memory\n"
     "  --plot FILE              the reflectogram: .png, .svg or .pdf by the extension\n"
     "  --plot-size WxH          plot size, pixels (PNG) or points (SVG, PDF) (default 1200x700)\n"
     "  --report FILE.html       a self-contained HTML report (plot, findings, inputs, cautions)\n"
@@ -245,6 +249,10 @@ int se_cmd_locate(int argc, char **argv)
     char refdesc[160], sha[65], refsha[65], *text = NULL;
     int have_refsha = 0, rc = SE_EXIT_OK, got;
 
+    unsigned long mem_mib = 2048;
+    int stream = 0, rec_is_header = 0;
+    se_recording header;
+    memset(&header, 0, sizeof header);
     memset(&so, 0, sizeof so);
     memset(&res, 0, sizeof res);
     se_error_clear(&err);
@@ -285,6 +293,15 @@ int se_cmd_locate(int argc, char **argv)
         if ((got = se_cli_value(&c, "--pulse-channel", &v)) != 0) {
             if (got < 0 || se_cli_uint("--pulse-channel", v, 1, 65535, &pulse_channel) != 0)
                 return SE_EXIT_USAGE;
+            continue;
+        }
+        if ((got = se_cli_value(&c, "--memory-limit", &v)) != 0) {
+            if (got < 0 || se_cli_uint("--memory-limit", v, 1, 1048576, &mem_mib) != 0)
+                return SE_EXIT_USAGE;
+            continue;
+        }
+        if (se_cli_flag(&c, "--stream")) {
+            stream = 1;
             continue;
         }
         if ((got = se_cli_value(&c, "--max-events", &v)) != 0) {
@@ -410,10 +427,63 @@ int se_cmd_locate(int argc, char **argv)
                 goto done;
     }
 
-    rec = se_recording_read(path, NULL, &err);
-    if (rec == NULL) {
-        rc = se_cli_fail_err(&err, 0);
-        goto done;
+    if (!stream) {
+        se_read_options ropt;
+        ropt.max_bytes = (size_t)mem_mib << 20;
+        rec = se_recording_read(path, &ropt, &err);
+        if (rec == NULL && err.code == SE_ERR_NOMEM && pulse_channel > 0 && plot == NULL &&
+            report == NULL) {
+            stream = 1; /* larger than the limit: read it in blocks instead */
+            if (!c.quiet)
+                fprintf(stderr, "strandecho: note: %s is over the %lu MiB memory limit: streaming it\n",
+                        path, mem_mib);
+        } else if (rec == NULL) {
+            rc = se_cli_fail_err(&err, 0);
+            goto done;
+        }
+    }
+    if (stream) {
+        se_stream_config scfg;
+        se_stream_info sinfo;
+        if (pulse_channel == 0) {
+            rc = se_cli_fail(SE_EXIT_USAGE, "streaming %s needs --pulse-channel (the reference must "
+                                            "come from the recording itself)",
+                             path);
+            goto done;
+        }
+        if (plot != NULL || report != NULL) {
+            rc = se_cli_fail(SE_EXIT_USAGE, "--plot and --report need the whole record: not "
+                                            "available when streaming %s",
+                             path);
+            goto done;
+        }
+        if (pulse_channel == channel) {
+            rc = se_cli_fail(SE_EXIT_USAGE, "--pulse-channel %lu is the response channel",
+                             pulse_channel);
+            goto done;
+        }
+        se_stream_config_init(&scfg);
+        scfg.channel = (unsigned)(channel - 1);
+        scfg.pulse_channel = (int)(pulse_channel - 1);
+        cfg.reference_kind = SE_REF_CHANNEL;
+        memset(&sinfo, 0, sizeof sinfo);
+        if (se_locate_stream(path, &cfg, &scfg, &res, &sinfo, &err) != SE_OK) {
+            rc = se_cli_fail(se_cli_exit_code(err.code, 0), "%s: %s", path, err.message);
+            goto done;
+        }
+        if (se_sha256_file(path, sha, &err) != SE_OK) {
+            rc = se_cli_fail_err(&err, 0);
+            goto done;
+        }
+        header.frames = sinfo.frames;
+        header.channels = sinfo.channels;
+        header.rate = sinfo.rate;
+        header.path = (char *)path;
+        snprintf(header.format, sizeof header.format, "%.36s, streamed", sinfo.format);
+        rec = &header;
+        rec_is_header = 1;
+        snprintf(refdesc, sizeof refdesc, "channel %lu", pulse_channel);
+        goto located;
     }
     if (channel > rec->channels) {
         rc = se_cli_fail(SE_EXIT_USAGE, "--channel %lu: %s has %u channel%s", channel, path,
@@ -438,6 +508,7 @@ int se_cmd_locate(int argc, char **argv)
         rc = se_cli_fail(se_cli_exit_code(err.code, 0), "%s: %s", path, err.message);
         goto done;
     }
+located:
     if (res.clipped_samples > 0)
         fprintf(stderr,
                 "strandecho: warning: %s: %zu samples of channel %lu clipped from sample %zu; "
@@ -491,7 +562,8 @@ done:
     free(text);
     free(refbuf);
     se_locate_result_free(&res);
-    se_recording_free(rec);
+    if (!rec_is_header)
+        se_recording_free(rec);
     return rc;
 }
 
