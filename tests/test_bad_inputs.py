@@ -426,7 +426,17 @@ def memory_limit(tmp):
     p = run(["locate", path, "--pulse-channel", "2", *SPEED, "--quiet", "--json", os.path.join(d, "o.json")],
             timeout=60)
     msg = p.stderr.decode()
-    check("2^28 frames x 2 channels: refused with the limit, exit 6",
+    # over the memory limit with a pulse channel: streamed in blocks, not loaded; this one's pulse
+    # channel is all zero (a sparse file), which the stream finds in its first block
+    check("2^28 frames x 2 channels: streamed, all-zero pulse channel found, exit 4",
+          p.returncode == 4 and re.search(r"huge\.wav channel 2: pulse search: the trace is all zero$",
+                                          msg.strip()), msg)
+    check("... quickly (only the first block read)", time.time() - t0 < 10, time.time() - t0)
+    t0 = time.time()
+    p = run(["locate", path, "--pulse-channel", "2", *SPEED, "--quiet", "--plot", os.path.join(d, "o.svg")],
+            timeout=60)
+    msg = p.stderr.decode()
+    check("2^28 frames x 2 channels with --plot (needs the whole record): refused with the limit, exit 6",
           p.returncode == 6 and re.search(r"huge\.wav: 268435456 frames x 2 channels need more than the limit "
                                           r"of 2147483648 bytes", msg), msg)
     check("... quickly (checked before reading)", time.time() - t0 < 10, time.time() - t0)

@@ -468,7 +468,10 @@ int se_cmd_locate(int argc, char **argv)
         cfg.reference_kind = SE_REF_CHANNEL;
         memset(&sinfo, 0, sizeof sinfo);
         if (se_locate_stream(path, &cfg, &scfg, &res, &sinfo, &err) != SE_OK) {
-            rc = se_cli_fail(se_cli_exit_code(err.code, 0), "%s: %s", path, err.message);
+            if (strncmp(err.message, path, strlen(path)) == 0) /* already names the file */
+                rc = se_cli_fail_err(&err, 0);
+            else
+                rc = se_cli_fail(se_cli_exit_code(err.code, 0), "%s: %s", path, err.message);
             goto done;
         }
         if (se_sha256_file(path, sha, &err) != SE_OK) {

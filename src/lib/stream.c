@@ -700,7 +700,7 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
         if ((st = se_pulse_support(pbuf_pulse, pw, &b, &e, err)) != SE_OK) {
             char why[SE_ERROR_MESSAGE_SIZE];
             snprintf(why, sizeof why, "%s", err ? err->message : "no pulse");
-            se_fail(err, st, "%s channel %d: %s", path, scfg.pulse_channel, why);
+            se_fail(err, st, "%s channel %d: %s", path, scfg.pulse_channel + 1, why);
             goto done;
         }
         memmove(pbuf_pulse, pbuf_pulse + b, (e - b) * sizeof *pbuf_pulse);
