@@ -37,6 +37,7 @@ int se_cli_load_reference(const char *pulse, unsigned long pulse_channel, const 
         cfg->reference = *owned;
         cfg->reference_length = e - b;
         cfg->reference_offset = b;
+        cfg->pilot = se_recording_channel(rec, (unsigned)(pulse_channel - 1)); /* repeated shots */
         cfg->reference_kind = SE_REF_CHANNEL;
         snprintf(desc, dsize, "channel %lu", pulse_channel);
         return SE_EXIT_OK;

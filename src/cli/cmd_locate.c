@@ -51,6 +51,10 @@ static const char se_locate_usage[] =
     "  --false-alarms N         expected false detections per record (default 0.01)\n"
     "  --source-end TERM        continuing (default), free, fixed, open, short, matched or a\n"
     "                           coefficient: corrects echo amplitudes seen at the sensor\n"
+    "                           or estimate (from the repeats of the strongest echo)\n"
+    "  --stacking auto|off|robust  repeated shots (taps) in one recording are found (on the pulse\n"
+    "                           channel when given), aligned and averaged (robust: trimmed mean);\n"
+    "                           default auto\n"
     "  --confidence P           coverage of the distance intervals (default 0.95)\n"
     "  --max-events N           at most N events (default 64)\n"
     "Output:\n"
@@ -99,6 +103,7 @@ static int se_load_reference(const char *pulse, unsigned long pulse_channel, con
         cfg->reference = *owned;
         cfg->reference_length = e - b;
         cfg->reference_offset = b;
+        cfg->pilot = se_recording_channel(rec, (unsigned)(pulse_channel - 1)); /* repeated shots */
         cfg->reference_kind = SE_REF_CHANNEL;
         snprintf(desc, dsize, "channel %lu", pulse_channel);
         return SE_EXIT_OK;
@@ -250,6 +255,7 @@ int se_cmd_locate(int argc, char **argv)
     int have_refsha = 0, rc = SE_EXIT_OK, got;
 
     unsigned long mem_mib = 2048;
+    const char *stacking = NULL;
     int stream = 0, rec_is_header = 0;
     se_recording header;
     memset(&header, 0, sizeof header);
@@ -278,6 +284,7 @@ int se_cmd_locate(int argc, char **argv)
         SE_TAKE("--json", json)
         SE_TAKE("--quantity", quantity)
         SE_TAKE("--source-end", source_end)
+        SE_TAKE("--stacking", stacking)
         SE_TAKE("--units", units)
         SE_TAKE("--line", line_path)
         SE_TAKE("--plot", plot)
@@ -409,9 +416,21 @@ int se_cmd_locate(int argc, char **argv)
         cfg.n_expected = nexp;
         snprintf(sp.source, sizeof sp.source, "from the line file (%zu segment%s, %.6g m)",
                  line->n_segments, line->n_segments == 1 ? "" : "s", line->length_m);
+    } else if (source_end != NULL && strcmp(source_end, "estimate") == 0) {
+        cfg.source_reflection = NAN; /* estimated from the data by se_locate */
     } else if (source_end != NULL &&
                se_termination_parse(source_end, cfg.quantity, &cfg.source_reflection, &err) != SE_OK) {
         return se_cli_fail(SE_EXIT_USAGE, "--source-end: %s", err.message);
+    }
+    if (stacking != NULL) {
+        if (strcmp(stacking, "auto") == 0)
+            cfg.stacking = SE_STACKING_AUTO;
+        else if (strcmp(stacking, "off") == 0)
+            cfg.stacking = SE_STACKING_OFF;
+        else if (strcmp(stacking, "robust") == 0)
+            cfg.stacking = SE_STACKING_ROBUST;
+        else
+            return se_cli_fail(SE_EXIT_USAGE, "--stacking: '%s' is not auto, off or robust", stacking);
     }
     {
         const char *inputs[4] = {path, line_path,
@@ -647,6 +666,20 @@ static void se_print_table(const se_locate_result *res, const se_recording *rec,
     printf("noise level %.3g, threshold %.3g (%.2f sigma for %g false alarm%s per record), in "
            "reflection units\n",
            res->noise_level, res->threshold, res->threshold_sigma, fa, fa == 1.0 ? "" : "s");
+    if (res->shots_found > 1)
+        printf("shots: %zu found, %zu stacked, SNR gain %.2f dB (%.2f dB expected for %zu)\n",
+               res->shots_found, res->shots_used, res->stack_gain_db, res->stack_expected_gain_db,
+               res->shots_used);
+    if (res->source_reflection_estimated)
+        printf("source-end coefficient estimated from the data: %+.3f\n", res->source_reflection);
+    if (res->attenuation_estimated)
+        printf("attenuation estimated from a known reflector: %.4g dB/m (coefficients at the "
+               "discontinuities have it removed)\n",
+               res->attenuation_db_per_m);
+    for (i = 0; i < res->n_dead_zone_events; i++)
+        printf("inside the dead zone (low confidence): %s echo at %.3f %s, reflection %+.3f\n",
+               se_event_class(res, &res->dead_zone_events[i]),
+               res->dead_zone_events[i].distance_m * k, u, res->dead_zone_events[i].reflection);
     printf("dead zone %.3f %s (%.4g ms), resolution %.3f %s, record reaches %.1f %s\n",
            res->dead_zone_m * k, u, res->dead_zone_s * 1e3, res->resolution_m * k, u,
            res->record_range_m * k, u);

@@ -49,6 +49,8 @@ static const char se_simulate_usage[] =
     "                           ends; --reflector adds faults to it, --break D cuts it at D with a\n"
     "                           free-like end\n"
     "  --gain G                 scale of both channels (default 0.5)\n"
+    "  --shots N                repeat the injection N times (taps), lattice model (default 1)\n"
+    "  --interval T             time between shots (default the record length / N)\n"
     "  --model lattice|fd       forward model: the equal-travel-time lattice (default, fast) or\n"
     "                           the finite-difference wave-equation solver (docs/fd-model.md)\n"
     "  --quiet                  print nothing on success\n"
@@ -454,7 +456,8 @@ int se_cmd_simulate(int argc, char **argv)
     se_line *ln = NULL;
     const char *refl_spec[SE_MAX_REFLECTORS];
     size_t nrefl = 0, frames, i;
-    double loss = 0.0, noise = 0.0, gain = 0.5, seed = 1.0;
+    double loss = 0.0, noise = 0.0, gain = 0.5, seed = 1.0, shots = 1.0, interval_s = 0.0;
+    const char *interval = NULL;
     se_sim_reflector refl[SE_MAX_REFLECTORS];
     se_sim_interface *ifs = NULL;
     se_sim_line line;
@@ -546,6 +549,19 @@ int se_cmd_simulate(int argc, char **argv)
                 return SE_EXIT_USAGE;
             continue;
         }
+        if ((got = se_cli_value(&c, "--shots", &v)) != 0) {
+            if (got < 0 || se_parse_number("--shots", v, 1.0, 1000.0, &shots) != 0 ||
+                shots != floor(shots))
+                return se_cli_fail(SE_EXIT_USAGE, "--shots: '%s' is not a whole number from 1 to 1000",
+                                   v);
+            continue;
+        }
+        if ((got = se_cli_value(&c, "--interval", &v)) != 0) {
+            if (got < 0)
+                return SE_EXIT_USAGE;
+            interval = v;
+            continue;
+        }
         if ((got = se_cli_value(&c, "--gain", &v)) != 0) {
             if (got < 0 || se_parse_number("--gain", v, 1e-9, 1e9, &gain) != 0)
                 return SE_EXIT_USAGE;
@@ -605,6 +621,8 @@ int se_cmd_simulate(int argc, char **argv)
     for (i = 0; i < nrefl; i++)
         if (se_parse_at("--reflector", refl_spec[i], q, &refl[i].distance_m, &refl[i].reflection) != 0)
             return SE_EXIT_USAGE;
+    if (fd && shots > 1.0)
+        return se_cli_fail(SE_EXIT_USAGE, "--shots goes with the lattice model (drop --model fd)");
     if (fd) {
         rec.noise_rms = noise;
         rec.seed = (unsigned long)seed;
@@ -636,8 +654,18 @@ int se_cmd_simulate(int argc, char **argv)
         if ((rc = se_cli_check_output(out, inputs)) != SE_EXIT_OK)
             return rc;
     }
-    rec.noise_rms = noise;
+    rec.noise_rms = shots > 1.0 ? 0.0 : noise; /* repeated shots: noise added once, afterwards */
     rec.seed = (unsigned long)seed;
+    if (interval != NULL &&
+        se_unit_parse(interval, SE_UNIT_TIME, "s", &interval_s, &err) != SE_OK)
+        return se_cli_fail(SE_EXIT_USAGE, "--interval: %s", err.message);
+    if (shots > 1.0 && interval == NULL)
+        interval_s = rec.duration_s / shots;
+    if (shots > 1.0 && !(interval_s > rec.pulse.duration_s && interval_s * (shots - 1.0) < rec.duration_s))
+        return se_cli_fail(SE_EXIT_USAGE,
+                           "--interval: %g s between %g shots does not fit a %g s record (or is "
+                           "shorter than the pulse)",
+                           interval_s, shots, rec.duration_s);
     if (ln != NULL) {
         if (loss > 0.0)
             line.loss_np_per_s = loss * log(10.0) / 20.0 * sp.speed_m_s;
@@ -667,6 +695,21 @@ int se_cmd_simulate(int argc, char **argv)
     if (se_simulate(&line, &rec, resp, inj, frames, &err) != SE_OK) {
         rc = se_cli_fail(se_cli_exit_code(err.code, 0), "simulate: %s", err.message);
         goto done;
+    }
+    if (shots > 1.0) {
+        /* superpose the shots (the line is linear): backwards, so each sum reads unmodified
+         * earlier samples */
+        size_t step = (size_t)llround(interval_s * rec.rate_hz), k, ns = (size_t)shots;
+        for (i = frames; i-- > 0;)
+            for (k = 1; k < ns; k++)
+                if (i >= k * step) {
+                    resp[i] += resp[i - k * step];
+                    inj[i] += inj[i - k * step];
+                }
+        if (se_fd_add_noise(resp, frames, noise, rec.seed, &err) != SE_OK) {
+            rc = se_cli_fail_err(&err, 0);
+            goto done;
+        }
     }
     for (i = 0; i < frames; i++) {
         resp[i] *= gain;

@@ -601,6 +601,7 @@ static se_status se_survey_locate(se_runner *r, const se_survey_line *sl, const 
         cfg.reference = pc + b;
         cfg.reference_length = e - b;
         cfg.reference_offset = b;
+        cfg.pilot = se_recording_channel(rec, (unsigned)(sl->pulse_channel - 1)); /* repeated shots */
         cfg.reference_kind = SE_REF_CHANNEL;
         snprintf(desc, sizeof desc, "channel %u", sl->pulse_channel);
     } else if (sl->pulse != NULL && se_pulse_is_spec(sl->pulse)) {
