@@ -42,6 +42,15 @@ int se_cli_exit_code(se_status st, int io_is_output);
  * advance, and return 1; return 0 when it is another option; -1 (message printed) when the value
  * is missing. */
 int se_cli_value(se_cli *c, const char *name, const char **value);
+/* Inside a command's option loop (a se_cli c and an int got in scope): take a string option's
+ * value into var and continue the loop; return SE_EXIT_USAGE when its value is missing. */
+#define SE_TAKE(name, var)                                                                        \
+    if ((got = se_cli_value(&c, name, &(var))) != 0) {                                            \
+        if (got < 0)                                                                              \
+            return SE_EXIT_USAGE;                                                                 \
+        continue;                                                                                 \
+    }
+
 /* If argv[i] is exactly --name (a flag), advance and return 1. */
 int se_cli_flag(se_cli *c, const char *name);
 /* Parse a positive integer option value (1-based channel numbers etc.). */

@@ -106,12 +106,6 @@ int se_cmd_calibrate(int argc, char **argv)
                 return SE_EXIT_USAGE;
             continue;
         }
-#define SE_TAKE(name, var)                                                                        \
-    if ((got = se_cli_value(&c, name, &(var))) != 0) {                                            \
-        if (got < 0)                                                                              \
-            return SE_EXIT_USAGE;                                                                 \
-        continue;                                                                                 \
-    }
         SE_TAKE("--pulse", pulse)
         SE_TAKE("--json", json)
         SE_TAKE("--quantity", quantity)
@@ -122,7 +116,6 @@ int se_cmd_calibrate(int argc, char **argv)
         SE_TAKE("--distance-uncertainty", known_sigma)
         SE_TAKE("--feature", feature)
         SE_TAKE("--segment", segment_name)
-#undef SE_TAKE
         if ((got = se_cli_value(&c, "--channel", &v)) != 0) {
             if (got < 0 || se_cli_uint("--channel", v, 1, 65535, &channel) != 0)
                 return SE_EXIT_USAGE;

@@ -75,12 +75,6 @@ int se_cmd_compare(int argc, char **argv)
                 return SE_EXIT_USAGE;
             continue;
         }
-#define SE_TAKE(name, var)                                                                        \
-    if ((got = se_cli_value(&c, name, &(var))) != 0) {                                            \
-        if (got < 0)                                                                              \
-            return SE_EXIT_USAGE;                                                                 \
-        continue;                                                                                 \
-    }
         SE_TAKE("--line", line_path)
         SE_TAKE("--pulse", pulse)
         SE_TAKE("--quantity", quantity)
@@ -88,7 +82,6 @@ int se_cmd_compare(int argc, char **argv)
         SE_TAKE("--plot", plot)
         SE_TAKE("--json", json)
         SE_TAKE("--units", units)
-#undef SE_TAKE
         if ((got = se_cli_value(&c, "--channel", &v)) != 0) {
             if (got < 0 || se_cli_uint("--channel", v, 1, 65535, &channel) != 0)
                 return SE_EXIT_USAGE;

@@ -85,17 +85,10 @@ int se_cmd_plan(int argc, char **argv)
             fputs(se_plan_usage, stdout);
             return SE_EXIT_OK;
         }
-#define SE_TAKE(name, var)                                                                        \
-    if ((got = se_cli_value(&c, name, &(var))) != 0) {                                            \
-        if (got < 0)                                                                              \
-            return SE_EXIT_USAGE;                                                                 \
-        continue;                                                                                 \
-    }
         SE_TAKE("--line", line_path)
         SE_TAKE("--json", json)
         SE_TAKE("--units", units)
         SE_TAKE("--resolution", resolution)
-#undef SE_TAKE
         if ((got = se_cli_value(&c, "--snr-db", &v)) != 0) {
             char *end;
             if (got < 0)

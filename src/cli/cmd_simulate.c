@@ -483,12 +483,6 @@ int se_cmd_simulate(int argc, char **argv)
                 return SE_EXIT_USAGE;
             continue;
         }
-#define SE_TAKE(name, var)                                                                        \
-    if ((got = se_cli_value(&c, name, &(var))) != 0) {                                            \
-        if (got < 0)                                                                              \
-            return SE_EXIT_USAGE;                                                                 \
-        continue;                                                                                 \
-    }
         SE_TAKE("--pulse", pulse)
         SE_TAKE("--rate", rate)
         SE_TAKE("--duration", duration)
@@ -573,7 +567,6 @@ int se_cmd_simulate(int argc, char **argv)
                 return se_cli_fail(SE_EXIT_USAGE, "--seed: '%s' is not a whole number", v);
             continue;
         }
-#undef SE_TAKE
         if (se_cli_flag(&c, "--quiet")) {
             c.quiet = 1;
             continue;

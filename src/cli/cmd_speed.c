@@ -75,12 +75,6 @@ int se_cmd_speed(int argc, char **argv)
                 return SE_EXIT_USAGE;
             continue;
         }
-#define SE_TAKE(name, var)                                                                        \
-    if ((got = se_cli_value(&c, name, &(var))) != 0) {                                            \
-        if (got < 0)                                                                              \
-            return SE_EXIT_USAGE;                                                                 \
-        continue;                                                                                 \
-    }
         SE_TAKE("--line", line_path)
         SE_TAKE("--json", json)
         SE_TAKE("--units", units)
@@ -88,7 +82,6 @@ int se_cmd_speed(int argc, char **argv)
         SE_TAKE("--end", end)
         SE_TAKE("--impedance", impedance)
         SE_TAKE("--quantity", quantity)
-#undef SE_TAKE
         if (se_cli_flag(&c, "--quiet")) {
             c.quiet = 1;
             continue;

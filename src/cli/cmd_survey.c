@@ -187,18 +187,11 @@ int se_cmd_survey(int argc, char **argv)
             fputs(se_survey_usage, stdout);
             return SE_EXIT_OK;
         }
-#define SE_TAKE(name, var)                                                                        \
-    if ((got = se_cli_value(&c, name, &(var))) != 0) {                                            \
-        if (got < 0)                                                                              \
-            return SE_EXIT_USAGE;                                                                 \
-        continue;                                                                                 \
-    }
         SE_TAKE("--report", report)
         SE_TAKE("--jsonl", jsonl)
         SE_TAKE("--units", units)
         SE_TAKE("--title", title)
         SE_TAKE("--shard", shard)
-#undef SE_TAKE
         if ((got = se_cli_value(&c, "--jobs", &v)) != 0) {
             if (got < 0 || se_cli_uint("--jobs", v, 1, 256, &jobs) != 0)
                 return SE_EXIT_USAGE;
