@@ -38,7 +38,7 @@ typedef struct se_stream_config {
     size_t block;             /* lags correlated per chunk and thread (0 = 2^17), rounded down to a
                                  multiple of the engine's step (at least one step) */
     unsigned threads;         /* 1 or 2 worker threads for the correlation (0 = 2) */
-    size_t noise_samples;     /* lags sampled for the noise (0 = 2^20, as se_locate) */
+    size_t noise_samples;     /* lags sampled for the noise (0 = 2^16, as se_locate) */
     const char *wisdom_path;  /* FFTW wisdom file (see se_xcorr_config), NULL = none */
     int measure;              /* 1: FFTW_MEASURE when the wisdom lacks the size (then the values
                                  differ from se_locate's ESTIMATE plans by rounding only) */

@@ -20,6 +20,8 @@
 #include "strandecho/stack.h"
 #include "strandecho/xcorr.h"
 
+/* Lags of r sampled (strided) for the MAD noise estimate; stream.c uses the same number. */
+#define SE_LOCATE_NOISE_SAMPLES ((size_t)1 << 16)
 /* Noise floor relative to the direct arrival (80 dB): see se_locate. */
 #define SE_LOCATE_NOISE_FLOOR 1e-4
 /* A run of at least this many equal samples at the trace's extreme is clipping. */
@@ -463,7 +465,9 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
                      (double)(n - k0) / rate_hz);
         goto done;
     }
-    st = se_noise_mad(r, start, end, (size_t)1 << 20, &nz, err);
+    /* 2^16 strided lags: the MAD's own spread is then ~0.5 %, below what the correlation of
+     * neighbouring lags leaves of a longer sample (REFERENCE.md 2: estimate on a sample) */
+    st = se_noise_mad(r, start, end, SE_LOCATE_NOISE_SAMPLES, &nz, err);
     if (st != SE_OK)
         goto done;
     sigma = nz.sigma;

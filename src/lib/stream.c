@@ -20,7 +20,7 @@
 #define SE_STREAM_NOISE_FLOOR 1e-4            /* as se_locate: 80 dB below the direct arrival */
 #define SE_STREAM_CLIP_RUN 5                  /* as se_locate */
 #define SE_STREAM_DEFAULT_BLOCK ((size_t)1 << 17)
-#define SE_STREAM_DEFAULT_NOISE ((size_t)1 << 20)
+#define SE_STREAM_DEFAULT_NOISE ((size_t)1 << 16)
 #define SE_STREAM_PULSE_WINDOW ((size_t)1 << 20)
 #define SE_STREAM_PROVISIONAL ((size_t)1 << 15) /* lags for the provisional noise */
 #define SE_STREAM_DIRECT_HALF (((size_t)1 << 17) + 8) /* > se_refine_peak's largest window 2^16 */
@@ -229,7 +229,7 @@ static se_status se_sl_alloc_window(se_sl *s, size_t i, se_error *err)
     if (w->data == NULL)
         return se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate a window of %zu samples", w->cap);
     for (j = a; j < i; j++) /* the history before the candidate, from the ring */
-        w->data[w->len++] = s->ring[j % s->ringcap];
+        w->data[w->len++] = s->ring[j & (s->ringcap - 1)];
     w->cand_first = w->cand_last = i;
     w->cmax = 0.0;
     s->nwins++;
@@ -270,7 +270,7 @@ static se_status se_provisional(se_sl *s, se_error *err)
 static se_status se_sl_feed(se_sl *s, size_t i, double v, se_error *err)
 {
     se_status st;
-    s->ring[i % s->ringcap] = v;
+    s->ring[i & (s->ringcap - 1)] = v;
     /* noise sample at start + k stride, with the next lag for the difference */
     if (s->pending && i == s->start + s->ni * s->stride + 1) {
         s->q[s->qn++] = v;
@@ -318,7 +318,7 @@ static se_status se_sl_feed(se_sl *s, size_t i, double v, se_error *err)
         }
         /* lags between the data end and i come from the ring (they were not needed until now) */
         while (w->a + w->len < i)
-            w->data[w->len] = s->ring[(w->a + w->len) % s->ringcap], w->len++;
+            w->data[w->len] = s->ring[(w->a + w->len) & (s->ringcap - 1)], w->len++;
         w->data[w->len++] = v;
         w->cand_last = i;
         if (fabs(v) > w->cmax)
@@ -771,7 +771,10 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
     s.mg = s.ext + s.win + 2;
     s.reach = 2 * s.ext + s.win + 4;
     s.left = s.reach + s.mg;
-    s.ringcap = s.left + 2;
+    /* a power of two, so the ring index is a mask, not a division, on every lag */
+    s.ringcap = 1;
+    while (s.ringcap < s.left + 2)
+        s.ringcap *= 2;
     s.ring = malloc(s.ringcap * sizeof *s.ring);
     s.plen = SE_STREAM_PROVISIONAL;
     s.pbuf = malloc(s.plen * sizeof *s.pbuf);
