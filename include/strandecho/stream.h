@@ -1,17 +1,22 @@
 /* strandecho: streaming locate. The locator of locate.h run on a recording read from libsndfile in
  * blocks, so memory does not grow with the record: the matched filter is computed chunk by chunk
- * (overlap-save, se_xcorr_run_part, up to two threads), the noise is estimated on the same strided
- * sample of at most 2^20 lags se_locate uses (se_noise_mad), only windows of r around candidates
- * above a pre-threshold are kept, CLEAN (se_detect) runs on each window, and the events are
+ * (overlap-save, se_xcorr_run_part, up to two threads, the next chunk read meanwhile), the noise
+ * is estimated on the same strided sample of lags se_locate uses (se_noise_mad), lags are scanned
+ * in blocks against a pre-threshold (0.8 of the threshold the noise of the first 2^15 lags after
+ * the direct arrival implies) and only the extent of each cluster of candidates is kept; at the
+ * end, for each cluster that passes the final threshold, the window of r around it is recomputed
+ * from the file (bit for bit the pass's values), CLEAN (se_detect) runs on it, and the events are
  * classified by the locator's own event stage.
  *
  * Same results as se_locate on the whole record: the same events, with lags bit for bit equal when
  * both plan with FFTW_ESTIMATE (the default here), within ~1e-12 sample otherwise; see
  * se_locate_stream for the two cases where the answer can differ.
  *
- * Memory: about 8 (2 T + 2) block doubles for the chunks, 2 MiB around the direct arrival, 32 MiB at
- * most for the noise sample (16 bytes per sampled lag, twice during the final median), plus the
- * windows kept around candidates (about 5 pulse lengths each), whatever the record length. */
+ * Memory: 8 (3 T + 2) chunk doubles (two input buffers and the output, T threads), 2 MiB around
+ * the direct arrival, 16 bytes per sampled noise lag (2 MiB at the default 2^16; twice during the
+ * final median), 24 bytes per candidate cluster, and one recomputed window (about 5 pulse lengths
+ * plus a block) at a time: about 22 MiB of peak resident memory at M = 4096 for 2^24 and for
+ * 2^30 samples alike (docs/performance.md). */
 #ifndef SE_STREAM_H
 #define SE_STREAM_H
 
@@ -37,7 +42,8 @@ typedef struct se_stream_config {
     size_t pulse_window;      /* samples of the pulse channel searched (0 = 2^20) */
     size_t block;             /* lags correlated per chunk and thread (0 = 2^17), rounded down to a
                                  multiple of the engine's step (at least one step) */
-    unsigned threads;         /* 1 or 2 worker threads for the correlation (0 = 2) */
+    unsigned threads;         /* 1 or 2 worker threads for the correlation (0 = 2); with 2, a third
+                                 thread reads the next chunk meanwhile. Results do not depend on it */
     size_t noise_samples;     /* lags sampled for the noise (0 = 2^16, as se_locate) */
     const char *wisdom_path;  /* FFTW wisdom file (see se_xcorr_config), NULL = none */
     int measure;              /* 1: FFTW_MEASURE when the wisdom lacks the size (then the values
@@ -52,12 +58,12 @@ typedef struct se_stream_info {
     char format[48];          /* libsndfile's format name, e.g. "WAV float32" -> "WAV (Microsoft)" */
     unsigned passes;          /* correlation passes over the file (1; 2 without a known time base;
                                  one more when the pre-threshold proved too high) */
-    size_t windows;           /* candidate windows kept */
-    size_t window_samples;    /* r samples held in them */
+    size_t windows;           /* candidate windows recomputed (those reaching the threshold) */
+    size_t window_samples;    /* r samples recomputed in them */
     se_xcorr_plan plan;       /* how the FFT plans were made */
 } se_stream_info;
 
-/* Defaults: channel 0, no pulse channel, auto block, 2 threads, 2^20 noise lags, no wisdom. */
+/* Defaults: channel 0, no pulse channel, auto block, 2 threads, 2^16 noise lags, no wisdom. */
 void se_stream_config_init(se_stream_config *scfg);
 
 /* Locate reflections in a recording file read in blocks.

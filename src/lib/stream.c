@@ -25,6 +25,10 @@
 #define SE_STREAM_PROVISIONAL ((size_t)1 << 15) /* lags for the provisional noise */
 #define SE_STREAM_DIRECT_HALF (((size_t)1 << 17) + 8) /* > se_refine_peak's largest window 2^16 */
 #define SE_STREAM_READ_FRAMES 8192
+/* The pre-threshold as a fraction of the provisional threshold: high enough that noise alone
+ * rarely passes it (clusters stay few), low enough that a provisional noise over the final one by
+ * up to a quarter still needs no second pass. */
+#define SE_STREAM_PRE_FRACTION 0.8
 
 /* Clipping runs at one extreme, tracked while the extreme may still move. */
 typedef struct se_clip_side {
@@ -32,12 +36,11 @@ typedef struct se_clip_side {
     size_t count, samples, runs[SE_MAX_CLIP_RUNS][2], nruns;
 } se_clip_side;
 
-/* A window of r kept around candidates: data r[a .. a+len). */
+/* A cluster of candidates (|r| >= pre, no gap over 2 left lags). Only its extent and largest |r|
+ * are kept during the pass; the r around it is recomputed at the end when it passes the threshold. */
 typedef struct se_window {
-    size_t a, len, cap;
     size_t cand_first, cand_last;
     double cmax;
-    double *data;
 } se_window;
 
 typedef struct se_worker {
@@ -69,9 +72,6 @@ typedef struct se_sl {
     size_t pcount, plen;
     double pre, pre_fixed;
     double fa;
-    /* history ring */
-    double *ring;
-    size_t ringcap;
     /* windows */
     se_window *wins;
     size_t nwins, capwins;
@@ -89,8 +89,17 @@ typedef struct se_sl {
     int varies;
 } se_sl;
 
-static se_status se_sl_alloc_window(se_sl *s, size_t i, se_error *err);
-static se_status se_sl_feed(se_sl *s, size_t i, double v, se_error *err);
+static se_status se_sl_cand(se_sl *s, size_t i, double av, se_error *err);
+static se_status se_sl_block(se_sl *s, size_t i0, const double *v, size_t n, se_error *err);
+static void se_sl_scan(se_sl *s, size_t i0, const double *v, size_t a, size_t b, se_status *st,
+                       se_error *err);
+static void se_clip_block(se_sl *s, size_t i0, const double *v, size_t n);
+static size_t se_first_bad(const double *v, size_t n);
+static se_status se_read_range(SNDFILE *snd, const char *path, unsigned nch, unsigned ch, size_t pos,
+                               size_t count, double *x, double *inter, se_error *err);
+static se_status se_window_data(const se_sl *s, SNDFILE *snd, const char *path, unsigned nch,
+                                unsigned ch, const se_xcorr *xc, se_xcorr_work *w, size_t a,
+                                size_t e, double **data, se_error *err);
 static se_status se_sl_know(se_sl *s, size_t c0, size_t c1, const double *chunk, se_error *err);
 static se_status se_sl_chunk(se_sl *s, size_t c0, size_t c1, const double *r, se_error *err);
 static void se_clip_close(se_sl *s);
@@ -207,12 +216,83 @@ static void se_clip_result(const se_sl *s, se_locate_result *res)
         res->first_clipped = res->clip_runs[0][0];
 }
 
-/* ---- candidate windows ---- */
+/* The block form of se_clip_sample, for [i0, i0+n) in order. A block with no two equal
+ * neighbours (nor equal to the run before it), once the record varies, holds only runs of one
+ * sample: the run before it closes at i0 and the extremes move at most once, as sample by sample.
+ * Other blocks go sample by sample. */
+static void se_clip_block(se_sl *s, size_t i0, const double *v, size_t n)
+{
+    size_t j, k;
+    for (j = 0; j < n; j += k) {
+        size_t len = n - j < 256 ? n - j : 256;
+        const double *u = v + j;
+        double lo = u[0], hi = u[0];
+        int eq = 0;
+        k = len;
+        if (i0 + j == 0 || !s->varies || u[0] == s->run_v) {
+            for (k = 0; k < len; k++)
+                se_clip_sample(s, i0 + j + k, u[k]);
+            continue;
+        }
+        for (k = 1; k < len; k++) {
+            eq |= u[k] == u[k - 1];
+            lo = u[k] < lo ? u[k] : lo;
+            hi = u[k] > hi ? u[k] : hi;
+        }
+        k = len;
+        if (eq) {
+            for (k = 0; k < len; k++)
+                se_clip_sample(s, i0 + j + k, u[k]);
+            continue;
+        }
+        se_clip_close(s); /* the run before the block ends at i0 + j (s->seen) */
+        if (hi > s->cmax.value) {
+            memset(&s->cmax, 0, sizeof s->cmax);
+            s->cmax.value = hi;
+        }
+        if (lo < s->cmin.value) {
+            memset(&s->cmin, 0, sizeof s->cmin);
+            s->cmin.value = lo;
+        }
+        s->run_v = u[len - 1];
+        s->run_start = i0 + j + len - 1;
+        s->seen = i0 + j + len;
+    }
+}
 
-static se_status se_sl_alloc_window(se_sl *s, size_t i, se_error *err)
+/* Index of the first non-finite value of v [size: n], n if none; x - x is NaN exactly then. */
+static size_t se_first_bad(const double *v, size_t n)
+{
+    size_t j, k;
+    for (j = 0; j < n; j += 512) {
+        size_t len = n - j < 512 ? n - j : 512;
+        int bad = 0;
+        for (k = 0; k < len; k++)
+            bad |= !(v[j + k] - v[j + k] == 0.0);
+        if (bad)
+            for (k = 0; k < len; k++)
+                if (!isfinite(v[j + k]))
+                    return j + k;
+    }
+    return n;
+}
+
+/* ---- candidate clusters ---- */
+
+/* A candidate at lag i, |r| = av: it joins the open cluster when no more than 2 left lags past
+ * its last candidate (where the window of r kept around it would have closed), else opens one. */
+static se_status se_sl_cand(se_sl *s, size_t i, double av, se_error *err)
 {
     se_window *w;
-    size_t a = i > s->left ? i - s->left : 0, j;
+    if (s->open) {
+        w = &s->wins[s->nwins - 1];
+        if (i <= w->cand_last + 2 * s->left) {
+            w->cand_last = i;
+            if (av > w->cmax)
+                w->cmax = av;
+            return SE_OK;
+        }
+    }
     if (s->nwins == s->capwins) {
         size_t nc = s->capwins ? 2 * s->capwins : 16;
         se_window *nw = realloc(s->wins, nc * sizeof *nw);
@@ -221,25 +301,16 @@ static se_status se_sl_alloc_window(se_sl *s, size_t i, se_error *err)
         s->wins = nw;
         s->capwins = nc;
     }
-    w = &s->wins[s->nwins];
-    memset(w, 0, sizeof *w);
-    w->a = a;
-    w->cap = 2 * s->left + 2;
-    w->data = malloc(w->cap * sizeof *w->data);
-    if (w->data == NULL)
-        return se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate a window of %zu samples", w->cap);
-    for (j = a; j < i; j++) /* the history before the candidate, from the ring */
-        w->data[w->len++] = s->ring[j & (s->ringcap - 1)];
+    w = &s->wins[s->nwins++];
     w->cand_first = w->cand_last = i;
-    w->cmax = 0.0;
-    s->nwins++;
+    w->cmax = av;
     s->open = 1;
     return SE_OK;
 }
 
-/* Provisional noise on the first lags after start: a pre-threshold at half the threshold it
- * implies, far below the final one unless the noise changes by half along the record (checked at
- * the end, and the pass redone then). Windows that no longer reach it are dropped. */
+/* Provisional noise on the first lags after start: a pre-threshold at SE_STREAM_PRE_FRACTION of
+ * the threshold it implies, below the final one unless the noise falls along the record by more
+ * than that (checked at the end, and the pass redone then). Clusters below it are dropped. */
 static se_status se_provisional(se_sl *s, se_error *err)
 {
     se_noise nz;
@@ -249,99 +320,91 @@ static se_status se_provisional(se_sl *s, se_error *err)
     if (st != SE_OK)
         return st;
     k = se_rice_k((double)(s->end - s->start), nz.beta > 0.0 ? nz.beta : 1.0, s->fa);
-    pre = isfinite(k) ? 0.5 * k * nz.sigma : 0.0;
+    pre = isfinite(k) ? SE_STREAM_PRE_FRACTION * k * nz.sigma : 0.0;
     if (pre > s->pre)
         s->pre = pre;
     for (i = 0; i < s->nwins; i++) {
         int last = i + 1 == s->nwins;
-        if (s->wins[i].cmax >= s->pre) {
+        if (s->wins[i].cmax >= s->pre)
             s->wins[keep++] = s->wins[i];
-        } else {
-            free(s->wins[i].data);
-            if (last)
-                s->open = 0;
-        }
+        else if (last)
+            s->open = 0;
     }
     s->nwins = keep;
     return SE_OK;
 }
 
-/* One lag of r, in order, once the direct arrival is known. */
-static se_status se_sl_feed(se_sl *s, size_t i, double v, se_error *err)
+/* Candidates among lags [a, b) (values v[i - i0]): 64 lags at a time counted against pre (a loop
+ * the compiler vectorises), lag by lag only in the groups that hold one. */
+static void se_sl_scan(se_sl *s, size_t i0, const double *v, size_t a, size_t b, se_status *st,
+                       se_error *err)
 {
-    se_status st;
-    s->ring[i & (s->ringcap - 1)] = v;
-    /* noise sample at start + k stride, with the next lag for the difference */
-    if (s->pending && i == s->start + s->ni * s->stride + 1) {
-        s->q[s->qn++] = v;
+    const double pre = s->pre, *p = v + (a - i0);
+    size_t n = b - a, j, k;
+    for (j = 0; j < n && *st == SE_OK; j += 64) {
+        size_t len = n - j < 64 ? n - j : 64, hits = 0;
+        for (k = 0; k < len; k++)
+            hits += fabs(p[j + k]) >= pre;
+        if (hits == 0)
+            continue;
+        for (k = 0; k < len && *st == SE_OK; k++)
+            if (fabs(p[j + k]) >= pre)
+                *st = se_sl_cand(s, a + j + k, fabs(p[j + k]), err);
+    }
+}
+
+/* Lags [i0, i0+n) of r (values v), in order, once the direct arrival is known: the noise sample
+ * picked by index arithmetic, the provisional noise filled, candidates scanned. */
+static se_status se_sl_block(se_sl *s, size_t i0, const double *v, size_t n, se_error *err)
+{
+    size_t i1 = i0 + n, lo, hi;
+    se_status st = SE_OK;
+    if (n == 0)
+        return SE_OK;
+    /* noise sample: r[at] and r[at+1] (when at + 1 < end) for at = start + k stride, k < used */
+    if (s->pending) {
+        s->q[s->qn++] = v[0];
         s->pending = 0;
         s->ni++;
     }
-    if (s->ni < s->used && i == s->start + s->ni * s->stride) {
-        s->q[s->qn++] = v;
-        if (i + 1 < s->end)
-            s->pending = 1;
-        else
+    while (s->ni < s->used) {
+        size_t at = s->start + s->ni * s->stride;
+        if (at >= i1)
+            break;
+        s->q[s->qn++] = v[at - i0];
+        if (at + 1 >= s->end) {
             s->ni++;
-    }
-    if (i < s->start || i >= s->end) {
-        if (s->open) {
-            se_window *w = &s->wins[s->nwins - 1];
-            if (i <= w->cand_last + s->left)
-                w->data[w->len++] = v;
-            else if (i >= w->cand_last + 2 * s->left)
-                s->open = 0;
+        } else if (at + 1 < i1) {
+            s->q[s->qn++] = v[at + 1 - i0];
+            s->ni++;
+        } else {
+            s->pending = 1;
+            break;
         }
-        return SE_OK;
     }
-    if (s->pre_fixed == 0.0 && s->pcount < s->plen) {
-        s->pbuf[s->pcount++] = v;
-        if (s->pcount == s->plen && (st = se_provisional(s, err)) != SE_OK)
-            return st;
-    }
-    if (fabs(v) >= s->pre) {
-        se_window *w;
-        if (!s->open && (st = se_sl_alloc_window(s, i, err)) != SE_OK)
-            return st;
-        w = &s->wins[s->nwins - 1];
-        /* the data must run to i + left: grow for the gap already held plus that reach */
-        if (w->a + w->cap < i + s->left + 2) {
-            size_t nc = 2 * w->cap;
-            double *nd;
-            while (w->a + nc < i + s->left + 2)
-                nc *= 2;
-            nd = realloc(w->data, nc * sizeof *nd);
-            if (nd == NULL)
-                return se_fail(err, SE_ERR_NOMEM, "stream: cannot grow a window to %zu samples", nc);
-            w->data = nd;
-            w->cap = nc;
-        }
-        /* lags between the data end and i come from the ring (they were not needed until now) */
-        while (w->a + w->len < i)
-            w->data[w->len] = s->ring[(w->a + w->len) & (s->ringcap - 1)], w->len++;
-        w->data[w->len++] = v;
-        w->cand_last = i;
-        if (fabs(v) > w->cmax)
-            w->cmax = fabs(v);
-        return SE_OK;
-    }
-    if (s->open) {
-        se_window *w = &s->wins[s->nwins - 1];
-        if (i <= w->cand_last + s->left) {
-            if (w->len == w->cap) {
-                double *nd = realloc(w->data, 2 * w->cap * sizeof *nd);
-                if (nd == NULL)
-                    return se_fail(err, SE_ERR_NOMEM, "stream: cannot grow a window");
-                w->data = nd;
-                w->cap *= 2;
+    lo = i0 > s->start ? i0 : s->start;
+    hi = i1 < s->end ? i1 : s->end;
+    while (lo < hi && st == SE_OK) {
+        if (s->pre_fixed == 0.0 && s->pcount < s->plen) {
+            size_t take = hi - lo < s->plen - s->pcount ? hi - lo : s->plen - s->pcount;
+            memcpy(s->pbuf + s->pcount, v + (lo - i0), take * sizeof *v);
+            s->pcount += take;
+            if (s->pcount < s->plen) {
+                se_sl_scan(s, i0, v, lo, lo + take, &st, err);
+                lo += take;
+                continue;
             }
-            if (w->a + w->len == i)
-                w->data[w->len++] = v;
-        } else if (i >= w->cand_last + 2 * s->left) {
-            s->open = 0;
+            /* the lag that fills the provisional sample is already tested against its level */
+            se_sl_scan(s, i0, v, lo, lo + take - 1, &st, err);
+            if (st == SE_OK)
+                st = se_provisional(s, err);
+            lo += take - 1;
+            continue;
         }
+        se_sl_scan(s, i0, v, lo, hi, &st, err);
+        lo = hi;
     }
-    return SE_OK;
+    return st;
 }
 
 /* The argmax range [lo, hi) has been seen: fix k0 (se_locate's rule: the first largest |r|), the
@@ -377,12 +440,15 @@ static se_status se_sl_know(se_sl *s, size_t c0, size_t c1, const double *chunk,
         s->pre = s->pre_fixed;
     else
         s->pre = 0.5 * 3.0 * SE_STREAM_NOISE_FLOOR * bestv;
-    f0 = s->start > s->left + 1 ? s->start - s->left - 1 : 0;
-    for (i = f0; i < c1; i++) {
-        double v = i < s->d1 ? s->dbuf[i - s->d0] : chunk[i - c0];
-        if ((st = se_sl_feed(s, i, v, err)) != SE_OK)
+    /* lags before start do nothing; [start, c0) are in D (d1 > hi + m > start), then the chunk */
+    if (s->start < c0) {
+        size_t b = c0 < s->d1 ? c0 : s->d1;
+        if ((st = se_sl_block(s, s->start, s->dbuf + (s->start - s->d0), b - s->start, err)) != SE_OK)
             return st;
     }
+    f0 = s->start > c0 ? s->start : c0;
+    if (f0 < c1)
+        return se_sl_block(s, f0, chunk + (f0 - c0), c1 - f0, err);
     return SE_OK;
 }
 
@@ -390,7 +456,6 @@ static se_status se_sl_know(se_sl *s, size_t c0, size_t c1, const double *chunk,
 static se_status se_sl_chunk(se_sl *s, size_t c0, size_t c1, const double *r, se_error *err)
 {
     size_t i;
-    se_status st;
     if (s->pass0) {
         for (i = c0; i < c1; i++) {
             double a = fabs(r[i - c0]);
@@ -435,17 +500,11 @@ static se_status se_sl_chunk(se_sl *s, size_t c0, size_t c1, const double *r, se
     }
     if (s->end <= s->start + 16)
         return SE_OK;
-    for (i = c0; i < c1; i++)
-        if ((st = se_sl_feed(s, i, r[i - c0], err)) != SE_OK)
-            return st;
-    return SE_OK;
+    return se_sl_block(s, c0, r, c1 - c0, err);
 }
 
 static void se_sl_reset(se_sl *s)
 {
-    size_t i;
-    for (i = 0; i < s->nwins; i++)
-        free(s->wins[i].data);
     s->nwins = 0;
     s->open = 0;
     free(s->q);
@@ -459,101 +518,209 @@ static void se_sl_reset(se_sl *s)
     s->varies = 0;
 }
 
+/* count frames of channel ch into x, from frame pos (SIZE_MAX: from where the file is). Mono
+ * files are read straight into x; others through inter [size: SE_STREAM_READ_FRAMES nch]. */
+static se_status se_read_range(SNDFILE *snd, const char *path, unsigned nch, unsigned ch, size_t pos,
+                               size_t count, double *x, double *inter, se_error *err)
+{
+    size_t got = 0;
+    if (pos != SIZE_MAX && sf_seek(snd, (sf_count_t)pos, SEEK_SET) != (sf_count_t)pos)
+        return se_fail(err, SE_ERR_IO, "%s: cannot seek to frame %zu", path, pos);
+    while (got < count) {
+        size_t take = count - got, j;
+        sf_count_t k;
+        if (nch == 1) {
+            k = sf_readf_double(snd, x + got, (sf_count_t)take);
+        } else {
+            if (take > SE_STREAM_READ_FRAMES)
+                take = SE_STREAM_READ_FRAMES;
+            k = sf_readf_double(snd, inter, (sf_count_t)take);
+            for (j = 0; k > 0 && j < (size_t)k; j++)
+                x[got + j] = inter[j * nch + ch];
+        }
+        if (k <= 0)
+            return se_fail(err, SE_ERR_FORMAT, "%s: truncated: file ends before frame %zu", path,
+                           (pos == SIZE_MAX ? 0 : pos) + got + 1);
+        got += (size_t)k;
+    }
+    return SE_OK;
+}
+
+/* r[a, e) recomputed from the file, bit for bit what the pass computed: the chunk starts at a
+ * multiple of the step and ends at one (or at the record's end), as every chunk of the pass does
+ * (se_xcorr_run_part). *data receives a malloc'd array of e - a values. */
+static se_status se_window_data(const se_sl *s, SNDFILE *snd, const char *path, unsigned nch,
+                                unsigned ch, const se_xcorr *xc, se_xcorr_work *w, size_t a,
+                                size_t e, double **data, se_error *err)
+{
+    size_t step = se_xcorr_step(xc), c = a / step * step, nl, nx;
+    double *x = NULL, *r = NULL, *inter = NULL;
+    se_status st;
+    nl = (e - c + step - 1) / step * step;
+    if (nl > s->n - c)
+        nl = s->n - c;
+    nx = nl + s->m - 1 < s->n - c ? nl + s->m - 1 : s->n - c;
+    *data = NULL;
+    x = malloc(nx * sizeof *x);
+    r = malloc(nl * sizeof *r);
+    inter = nch > 1 ? malloc((size_t)SE_STREAM_READ_FRAMES * nch * sizeof *inter) : NULL;
+    if (x == NULL || r == NULL || (nch > 1 && inter == NULL)) {
+        st = se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate a window of %zu lags", nl);
+        goto done;
+    }
+    if ((st = se_read_range(snd, path, nch, ch, c, nx, x, inter, err)) != SE_OK)
+        goto done;
+    if ((st = se_xcorr_run_part(xc, w, x, nx, nl, r, err)) != SE_OK)
+        goto done;
+    memmove(r, r + (a - c), (e - a) * sizeof *r);
+    *data = r;
+    r = NULL;
+done:
+    free(x);
+    free(r);
+    free(inter);
+    return st;
+}
+
+/* The reading side of a pass: fill buf up to want samples (after the tail already there), check
+ * they are finite, track clipping. Runs beside the correlation of the chunk before. */
+typedef struct se_reader {
+    se_sl *s;
+    SNDFILE *snd;
+    const char *path;
+    unsigned nch, ch;
+    double *buf, *inter;
+    size_t have, want, readpos; /* readpos: frame of the file at buf[have] */
+    se_status st;
+    se_error err;
+} se_reader;
+
+static void *se_reader_run(void *arg)
+{
+    se_reader *rd = arg;
+    size_t take, bad;
+    se_error_clear(&rd->err);
+    rd->st = SE_OK;
+    if (rd->have >= rd->want || rd->readpos >= rd->s->n)
+        return NULL;
+    take = rd->want - rd->have < rd->s->n - rd->readpos ? rd->want - rd->have : rd->s->n - rd->readpos;
+    rd->st = se_read_range(rd->snd, rd->path, rd->nch, rd->ch, SIZE_MAX, take, rd->buf + rd->have,
+                           rd->inter, &rd->err);
+    if (rd->st != SE_OK)
+        return NULL;
+    if ((bad = se_first_bad(rd->buf + rd->have, take)) < take) {
+        double v = rd->buf[rd->have + bad];
+        rd->st = se_fail(&rd->err, SE_ERR_DATA, "%s: sample %zu (channel %u) is %s", rd->path,
+                         rd->readpos + bad, rd->ch, isnan(v) ? "NaN" : "infinite");
+        return NULL;
+    }
+    if (!rd->s->pass0)
+        se_clip_block(rd->s, rd->readpos, rd->buf + rd->have, take);
+    rd->have += take;
+    rd->readpos += take;
+    return NULL;
+}
+
 /* One pass over the file: read the response channel, correlate chunks of lc lags (threads at a
- * time), hand r to se_sl_chunk in order. */
+ * time), hand r to se_sl_chunk in order. With two threads the next chunk is read (a third,
+ * mostly waiting thread) while this one is correlated: two input buffers, the m - 1 samples of
+ * overlap copied from one to the other. The reader touches only the clipping fields of s. */
 static se_status se_pass(se_sl *s, SNDFILE *snd, const char *path, unsigned nch, unsigned ch,
                          const se_xcorr *xc, se_xcorr_work *const *w, unsigned threads, size_t lc,
                          se_error *err)
 {
-    size_t m = s->m, n = s->n, cap = threads * lc + m, have = 0, base = 0, readpos = 0, t;
-    double *x = NULL, *r = NULL, *inter = NULL;
+    size_t m = s->m, n = s->n, cap = threads * lc + m, want = threads * lc + m - 1, base = 0, t;
+    double *xb[2] = {NULL, NULL}, *r = NULL, *inter = NULL;
+    int cur = 0;
+    se_reader rd;
     se_status st = SE_OK;
 
     if (sf_seek(snd, 0, SEEK_SET) != 0)
         return se_fail(err, SE_ERR_IO, "%s: cannot rewind for another pass", path);
-    x = malloc(cap * sizeof *x);
+    xb[0] = malloc(cap * sizeof *xb[0]);
+    xb[1] = malloc(cap * sizeof *xb[1]);
     r = malloc(threads * lc * sizeof *r);
-    inter = malloc((size_t)SE_STREAM_READ_FRAMES * nch * sizeof *inter);
-    if (x == NULL || r == NULL || inter == NULL) {
+    inter = nch > 1 ? malloc((size_t)SE_STREAM_READ_FRAMES * nch * sizeof *inter) : NULL;
+    if (xb[0] == NULL || xb[1] == NULL || r == NULL || (nch > 1 && inter == NULL)) {
         st = se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate chunk buffers of %zu samples", cap);
         goto done;
     }
+    memset(&rd, 0, sizeof rd);
+    rd.s = s;
+    rd.snd = snd;
+    rd.path = path;
+    rd.nch = nch;
+    rd.ch = ch;
+    rd.inter = inter;
+    rd.buf = xb[0];
+    rd.want = want;
+    se_reader_run(&rd);
+    if ((st = rd.st) != SE_OK) {
+        se_fail(err, st, "%s", rd.err.message);
+        goto done;
+    }
     while (base < n) {
-        size_t want = threads * lc + m - 1, nsub, lags;
-        int eof;
-        while (have < want && readpos < n) {
-            size_t take = want - have, j;
-            sf_count_t got;
-            if (take > SE_STREAM_READ_FRAMES)
-                take = SE_STREAM_READ_FRAMES;
-            if (take > n - readpos)
-                take = n - readpos;
-            got = sf_readf_double(snd, inter, (sf_count_t)take);
-            if (got <= 0) {
-                st = se_fail(err, SE_ERR_FORMAT, "%s: truncated: header says %zu frames, file holds %zu",
-                             path, n, readpos);
-                goto done;
-            }
-            for (j = 0; j < (size_t)got; j++) {
-                double v = inter[j * nch + ch];
-                if (!isfinite(v)) {
-                    st = se_fail(err, SE_ERR_DATA, "%s: sample %zu (channel %u) is %s", path,
-                                 readpos + j, ch, isnan(v) ? "NaN" : "infinite");
-                    goto done;
-                }
-                if (!s->pass0)
-                    se_clip_sample(s, readpos + j, v);
-                x[have + j] = v;
-            }
-            have += (size_t)got;
-            readpos += (size_t)got;
-        }
-        eof = readpos == n;
+        size_t have = rd.have, readpos = rd.readpos, nsub, lags;
+        const double *x = xb[cur];
+        int eof = readpos == n, rspawn = 0;
+        se_worker wk[2];
+        pthread_t tid, rtid;
+        int spawned = 0;
         lags = eof ? have : have - (m - 1);
         nsub = (lags + lc - 1) / lc;
         if (nsub > threads)
             nsub = threads;
-        {
-            se_worker wk[2];
-            pthread_t tid;
-            int spawned = 0;
-            for (t = 0; t < nsub; t++) {
-                size_t off = t * lc;
-                wk[t].xc = xc;
-                wk[t].w = w[t];
-                wk[t].x = x + off;
-                wk[t].nout = lags - off < lc ? lags - off : lc;
-                wk[t].n = have - off < wk[t].nout + m - 1 ? have - off : wk[t].nout + m - 1;
-                wk[t].r = r + off;
-            }
-            if (nsub == 2)
-                spawned = pthread_create(&tid, NULL, se_worker_run, &wk[1]) == 0;
-            se_worker_run(&wk[0]);
-            if (nsub == 2) {
-                if (spawned)
-                    pthread_join(tid, NULL);
-                else
-                    se_worker_run(&wk[1]); /* no thread available: same values serially */
-            }
-            for (t = 0; t < nsub; t++)
-                if (wk[t].st != SE_OK) {
-                    st = se_fail(err, wk[t].st, "%s", wk[t].err.message);
-                    goto done;
-                }
-            lags = 0;
-            for (t = 0; t < nsub; t++)
-                lags += wk[t].nout;
+        for (t = 0; t < nsub; t++) {
+            size_t off = t * lc;
+            wk[t].xc = xc;
+            wk[t].w = w[t];
+            wk[t].x = x + off;
+            wk[t].nout = lags - off < lc ? lags - off : lc;
+            wk[t].n = have - off < wk[t].nout + m - 1 ? have - off : wk[t].nout + m - 1;
+            wk[t].r = r + off;
         }
+        lags = 0;
+        for (t = 0; t < nsub; t++)
+            lags += wk[t].nout;
+        /* the next chunk: the overlap, then what the file gives */
+        rd.buf = xb[1 - cur];
+        rd.have = have - lags;
+        memcpy(rd.buf, x + lags, rd.have * sizeof *x);
+        rd.st = SE_OK;
+        if (!eof && threads > 1)
+            rspawn = pthread_create(&rtid, NULL, se_reader_run, &rd) == 0;
+        if (nsub == 2)
+            spawned = pthread_create(&tid, NULL, se_worker_run, &wk[1]) == 0;
+        se_worker_run(&wk[0]);
+        if (nsub == 2) {
+            if (spawned)
+                pthread_join(tid, NULL);
+            else
+                se_worker_run(&wk[1]); /* no thread available: same values serially */
+        }
+        if (rspawn)
+            pthread_join(rtid, NULL);
+        for (t = 0; t < nsub; t++)
+            if (wk[t].st != SE_OK) {
+                st = se_fail(err, wk[t].st, "%s", wk[t].err.message);
+                goto done;
+            }
         if ((st = se_sl_chunk(s, base, base + lags, r, err)) != SE_OK)
             goto done;
-        memmove(x, x + lags, (have - lags) * sizeof *x);
-        have -= lags;
+        if (!eof && !rspawn)
+            se_reader_run(&rd); /* one thread, or none to spare: read now */
+        if ((st = rd.st) != SE_OK) {
+            se_fail(err, st, "%s", rd.err.message);
+            goto done;
+        }
         base += lags;
+        cur = 1 - cur;
     }
     if (!s->pass0)
         se_clip_close(s);
 done:
-    free(x);
+    free(xb[0]);
+    free(xb[1]);
     free(r);
     free(inter);
     return st;
@@ -575,7 +742,7 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
     se_acf *acf = NULL;
     se_distmap *own_map = NULL;
     const se_distmap *map;
-    double *ref = NULL, *pbuf_pulse = NULL;
+    double *ref = NULL, *pbuf_pulse = NULL, *wdata = NULL;
     se_peak *all = NULL;
     size_t nall = 0, m, n, lc, step, i, dead = 0, maxp;
     unsigned threads, nch;
@@ -771,15 +938,11 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
     s.mg = s.ext + s.win + 2;
     s.reach = 2 * s.ext + s.win + 4;
     s.left = s.reach + s.mg;
-    /* a power of two, so the ring index is a mask, not a division, on every lag */
-    s.ringcap = 1;
-    while (s.ringcap < s.left + 2)
-        s.ringcap *= 2;
-    s.ring = malloc(s.ringcap * sizeof *s.ring);
     s.plen = SE_STREAM_PROVISIONAL;
     s.pbuf = malloc(s.plen * sizeof *s.pbuf);
-    if (s.ring == NULL || s.pbuf == NULL) {
-        st = se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate the history of %zu lags", s.ringcap);
+    if (s.pbuf == NULL) {
+        st = se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate the provisional sample of %zu lags",
+                     s.plen);
         goto done;
     }
 
@@ -891,24 +1054,37 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
         goto done;
     }
 
-    /* CLEAN on each window: windows lie more than the acf support apart, so each is independent. */
+    /* CLEAN on each window: windows lie more than the acf support apart, so each is independent.
+     * A cluster whose largest |r| is below the threshold holds no detection (every other lag of
+     * its range is below pre <= thr, and the direct arrival's sidelobes end before start), so only
+     * the others get their window r[cand_first - left, cand_last + left] recomputed. */
     maxp = cfg.max_events ? cfg.max_events : 64;
     for (i = 0; i < s.nwins; i++) {
         se_window *wd = &s.wins[i];
         se_detect_config dc;
         se_peak direct, *pk = NULL;
-        size_t np = 0, j, a = wd->a, ds = s.k0 + dead;
+        size_t np = 0, j, ds = s.k0 + dead, len;
+        size_t a = wd->cand_first > s.left ? wd->cand_first - s.left : 0;
+        size_t e = n - wd->cand_last > s.left ? wd->cand_last + s.left + 1 : n;
         size_t s0 = wd->cand_first > s.reach ? wd->cand_first - s.reach : 0;
         size_t s1 = wd->cand_last + s.reach + 1;
-        info->window_samples += wd->len;
+        if (!(wd->cmax >= thr))
+            continue;
+        len = e - a;
         if (s0 < ds)
             s0 = ds;
         if (s1 > s.end)
             s1 = s.end;
-        if (s1 > a + wd->len)
-            s1 = a + wd->len;
+        if (s1 > e)
+            s1 = e;
         if (s0 >= s1)
             continue;
+        free(wdata);
+        st = se_window_data(&s, snd, path, nch, scfg.channel, xc, w[0], a, e, &wdata, err);
+        if (st != SE_OK)
+            goto done;
+        info->windows++;
+        info->window_samples += len;
         direct.lag = lag0 - (double)a;
         direct.amplitude = a0;
         direct.index = 0;
@@ -920,7 +1096,7 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
         dc.acf = acf;
         dc.known = &direct;
         dc.n_known = 1;
-        st = se_detect(wd->data, wd->len, &dc, &pk, &np, err);
+        st = se_detect(wdata, len, &dc, &pk, &np, err);
         if (st != SE_OK)
             goto done;
         if (np > 0) {
@@ -940,7 +1116,6 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
         }
         free(pk);
     }
-    info->windows = s.nwins;
     if (nall > maxp) {
         /* keep the largest maxp, back in lag order */
         qsort(all, nall, sizeof *all, se_peak_by_size);
@@ -970,8 +1145,8 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
 done:
     se_sl_reset(&s);
     free(s.wins);
-    free(s.ring);
     free(s.pbuf);
+    free(wdata);
     free(s.dbuf);
     free(s.pm_i);
     free(s.pm_v);

@@ -4,6 +4,8 @@
  * samples with pulses of 256 and 4096 samples.
  *
  * usage: bench_perf [--min-log2 A] [--max-log2 B] [--reps R] [--dir D] [--threads T] [--pulse M]
+ *        bench_perf --huge DIR [LOG2]   (one record of 2^LOG2 samples, default 30, M = 4096,
+ *                                        written block by block as RF64 float, located, deleted)
  *   defaults: A = 20, B = 24, R = 5, D = /tmp/strandecho-bench, T = 2, pulses 256 and 4096.
  * Each measurement runs in its own child process (fork + exec of this program, so the child's
  * peak resident memory from wait4/getrusage is its own); the table shows medians of R runs.
@@ -27,6 +29,8 @@
 #include <unistd.h>
 
 #include <pthread.h>
+
+#include <sndfile.h>
 
 #include "strandecho/locate.h"
 #include "strandecho/recording.h"
@@ -125,6 +129,83 @@ static int pb_generate(const char *wav, const char *pulse, size_t n, size_t m)
         goto out;
     }
     ok = fclose(f) == 0;
+out:
+    free(x);
+    free(s);
+    return ok;
+}
+
+/* The same record as pb_generate (same noise sequence, direct arrival, six echoes) written block
+ * by block, so its length is not limited by memory: RF64 float (the 64-bit-size WAV), since a
+ * RIFF WAV cannot hold 2^30 float samples (4 GiB of data). */
+static int pb_generate_stream(const char *wav, const char *pulse, size_t n, size_t m)
+{
+    static const double where[6] = {0.11, 0.23, 0.37, 0.52, 0.71, 0.93};
+    static const double amp[6] = {0.5, -0.3, 0.2, -0.1, 0.08, 0.05};
+    const size_t blk = (size_t)1 << 20;
+    double *x = malloc(blk * sizeof *x), *s = malloc(m * sizeof *s), t0[7], a[7];
+    uint64_t st = 88172645463325252ULL;
+    size_t b, i, k;
+    SF_INFO si;
+    SNDFILE *f;
+    FILE *fp;
+    int ok = 0;
+    if (x == NULL || s == NULL || blk % 2 != 0)
+        goto out;
+    for (k = 0; k < 7; k++) {
+        t0[k] = k == 0 ? PB_DIRECT : floor(where[k - 1] * (double)n) + 0.37;
+        a[k] = k == 0 ? 1.0 : amp[k - 1];
+    }
+    memset(&si, 0, sizeof si);
+    si.samplerate = 1000000;
+    si.channels = 1;
+    si.format = SF_FORMAT_RF64 | SF_FORMAT_FLOAT;
+    f = sf_open(wav, SFM_WRITE, &si);
+    if (f == NULL) {
+        fprintf(stderr, "bench: %s: %s\n", wav, sf_strerror(NULL));
+        goto out;
+    }
+    for (b = 0; b < n; b += blk) {
+        size_t len = n - b < blk ? n - b : blk;
+        for (i = 0; i + 1 < len; i += 2) {
+            double u1, u2, rr;
+            st ^= st >> 12, st ^= st << 25, st ^= st >> 27;
+            u1 = ((double)((st * 2685821657736338717ULL) >> 11) + 0.5) / 9007199254740992.0;
+            st ^= st >> 12, st ^= st << 25, st ^= st >> 27;
+            u2 = ((double)((st * 2685821657736338717ULL) >> 11) + 0.5) / 9007199254740992.0;
+            rr = 1e-3 * sqrt(-2.0 * log(u1));
+            x[i] = rr * cos(2.0 * PB_PI * u2);
+            x[i + 1] = rr * sin(2.0 * PB_PI * u2);
+        }
+        if (len % 2)
+            x[len - 1] = 0.0;
+        for (k = 0; k < 7; k++) {
+            size_t i0 = (size_t)t0[k], i1 = i0 + m + 2;
+            for (i = i0 > b ? i0 : b; i < i1 && i < b + len; i++)
+                x[i - b] += a[k] * pb_pulse(m, (double)i - t0[k]);
+        }
+        if (sf_writef_double(f, x, (sf_count_t)len) != (sf_count_t)len) {
+            fprintf(stderr, "bench: %s: %s\n", wav, sf_strerror(f));
+            sf_close(f);
+            goto out;
+        }
+    }
+    if (sf_close(f) != 0)
+        goto out;
+    pb_make_pulse(m, s);
+    fp = fopen(pulse, "wb");
+    if (fp == NULL || fwrite(s, sizeof *s, m, fp) != m) {
+        if (fp != NULL)
+            fclose(fp);
+        goto out;
+    }
+    ok = fclose(fp) == 0;
+    if (ok) {
+        printf("expected lags:");
+        for (k = 0; k < 7; k++)
+            printf(" %.2f", t0[k]);
+        printf("\n");
+    }
 out:
     free(x);
     free(s);
@@ -313,6 +394,40 @@ int main(int argc, char **argv)
 
     if (argc >= 2 && strcmp(argv[1], "--child-stream") == 0 && argc == 5)
         return pb_child_stream(argv[2], argv[3], (unsigned)atoi(argv[4]));
+    if (argc >= 2 && strcmp(argv[1], "--generate") == 0 && argc == 6)
+        return pb_generate(argv[4], argv[5], (size_t)strtoull(argv[2], NULL, 10),
+                           (size_t)strtoull(argv[3], NULL, 10)) ? 0 : 1;
+    if (argc >= 2 && strcmp(argv[1], "--huge") == 0 && argc >= 3) {
+        /* --huge DIR [LOG2]: one streamed record of 2^LOG2 samples (default 30), M = 4096,
+         * generated block by block, located once (own child, peak RSS), then deleted */
+        int lg2 = argc >= 4 ? atoi(argv[3]) : 30;
+        char wav[4300], pul[4300], self2[4096];
+        char *av[] = {self2, "--child-stream", wav, pul, "2", NULL};
+        double tg;
+        ssize_t l2 = readlink("/proc/self/exe", self2, sizeof self2 - 1);
+        pb_run x;
+        if (l2 <= 0 || lg2 < 16 || lg2 > 34)
+            return 2;
+        self2[l2] = '\0';
+        snprintf(wav, sizeof wav, "%s/huge_%d.rf64", argv[2], lg2);
+        snprintf(pul, sizeof pul, "%s/pulse_4096.f64", argv[2]);
+        tg = pb_now();
+        if (!pb_generate_stream(wav, pul, (size_t)1 << lg2, 4096))
+            return 1;
+        printf("generated %s (2^%d samples, float) in %.1f s\n", wav, lg2, pb_now() - tg);
+        fflush(stdout);
+        x = pb_spawn(av, 0);
+        remove(wav);
+        if (!x.ok) {
+            printf("the streaming locate failed (see stderr)\n");
+            return 1;
+        }
+        printf("stream end to end: %.3f s, peak RSS %.1f MiB, lags:", x.seconds, x.maxrss_mib);
+        for (ai = 0; ai < (int)x.nlags; ai++)
+            printf(" %.4f", x.lags[ai]);
+        printf("\n");
+        return 0;
+    }
     if (argc >= 2 && strcmp(argv[1], "--child-bare") == 0 && argc == 5)
         return pb_child_bare((size_t)strtoull(argv[2], NULL, 10), (size_t)strtoull(argv[3], NULL, 10),
                              (unsigned)atoi(argv[4]));
