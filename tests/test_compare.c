@@ -150,6 +150,31 @@ static void test_new_reflector(void)
     CHECK_CLOSE(cr.gain, 1.0, 0.03, "gain after normalisation");
     CHECK(cr.correlation > 0.9);
     CHECK(cr.n == rn.trace_length && cr.residual != NULL && cr.aligned_baseline != NULL);
+    /* the sentence a summary table shows: the speed change and exactly the one new reflector */
+    if (found != NULL) {
+        char sentence[256], want[160], small[110];
+        CHECK(se_compare_sentence(&cr, "the 2025 survey", 1.0, "m", sentence, sizeof sentence, &err) == SE_OK);
+        snprintf(want, sizeof want, "since the 2025 survey (%+.2f %%): new reflection at %.1f m, %.0f sigma",
+                 cr.speed_change * 100.0, found->distance_m, found->significance);
+        snprintf(want, sizeof want, "since the 2025 survey (speed %+.2f %%): new reflection at %.1f m, %.0f sigma",
+                 cr.speed_change * 100.0, found->distance_m, found->significance);
+        printf("  sentence: %s\n", sentence);
+        CHECK(strcmp(sentence, want) == 0);
+        CHECK(strstr(sentence, "(speed +0.30 %)") != NULL);
+        /* feet and the default label */
+        CHECK(se_compare_sentence(&cr, NULL, 1.0 / 0.3048, "ft", sentence, sizeof sentence, &err) == SE_OK);
+        snprintf(want, sizeof want, "new reflection at %.1f ft", found->distance_m / 0.3048);
+        CHECK(strncmp(sentence, "since the baseline (", 20) == 0 && strstr(sentence, want) != NULL);
+        /* a buffer too small for the change: summed up, never cut mid-word */
+        CHECK(se_compare_sentence(&cr, "a survey with a very long name given by the caller", 1.0, "m", small,
+                                  sizeof small, &err) == SE_OK);
+        printf("  cut: %s\n", small);
+        CHECK(strcmp(small, "since a survey with a very long name given by the caller (speed +0.30 %): 1 change "
+                            "that may be a fault") == 0);
+        CHECK(strlen(small) < sizeof small);
+        CHECK(se_compare_sentence(&cr, NULL, 1.0, "m", small, 50, &err) == SE_ERR_ARG);
+        CHECK(se_compare_sentence(&cr, NULL, 0.0, "m", sentence, sizeof sentence, &err) == SE_ERR_ARG);
+    }
     se_compare_result_free(&cr);
     se_locate_result_free(&rb);
     se_locate_result_free(&rn);
@@ -172,6 +197,11 @@ static void test_no_change(void)
     CHECK(se_compare(&rb, &rn, NULL, &cr, &err) == SE_OK);
     CHECK(cr.n_faults == 0);
     CHECK_CLOSE(cr.stretch, 1.0 / 0.998, 1e-4, "stretch of a 0.2 % slower line");
+    {
+        char sentence[160];
+        CHECK(se_compare_sentence(&cr, NULL, 1.0, "m", sentence, sizeof sentence, &err) == SE_OK);
+        CHECK(strncmp(sentence, "no change that may be a fault since the baseline (speed -0.20 %)", 64) == 0);
+    }
     se_compare_result_free(&cr);
     se_locate_result_free(&rb);
     se_locate_result_free(&rn);

@@ -70,6 +70,7 @@ static void make_fixture(fixture *f)
         e->distance_uncertainty_m = 0.4;
         e->delay_uncertainty_s = 1e-6;
         e->reflection = refl[k];
+        e->reflection_uncertainty = 0.003;
         e->polarity = refl[k] > 0 ? 1 : -1;
         e->impedance_increase = refl[k] < 0; /* velocity: an inverted echo is an increase */
         e->snr_db = k == 3 ? 14.0 : 35.0;
@@ -243,6 +244,8 @@ int main(int argc, char **argv)
     se_report_line rl[3];
     se_report rep;
     se_report_param extra[1] = {{"max events", "64 <default>"}};
+    se_compare_result cmp;
+    se_change ch[2];
     se_error err;
     char *html, *again, path[1024], dir[512], buf[1200];
     const char *const *cautions;
@@ -287,6 +290,8 @@ int main(int argc, char **argv)
     rl[2].name = "Leg C";
     rl[2].line = NULL; /* a line with no description: no expected-versus-found */
     rl[2].note = "Changed since the 2024 baseline: one new reflection at 600 m.";
+    f[0].ev[0].reflection_uncertainty = 0.00023;
+    f[0].ev[2].reflection_uncertainty = 0.012;
 
     se_report_init(&rep);
     rep.site = "Invented site \"North\"";
@@ -303,7 +308,13 @@ int main(int argc, char **argv)
     CHECK(balanced(html));
     CHECK(self_contained(html));
     CHECK(strstr(html, "<svg id=\"l1-plot\"") != NULL);
-    CHECK(count(html, "<svg") == 1 && count(html, "</svg>") == 1);
+    /* one plot; every other SVG is a "Possible fault" badge (unexpected reflections at 600 m, 820 m) */
+    CHECK(count(html, "<svg id=") == 1 && count(html, "</svg>") == 1 + count(html, "<span class=\"flag\">"));
+    CHECK(count(html, "<span class=\"flag\">") == 1 && count(html, "Possible fault</span>") == 1);
+    /* an uncertainty under 5e-4 keeps two significant digits (not "0.000"); 0.012 keeps three decimals */
+    CHECK(strstr(html, "<td class=\"n\">0.00023</td>") != NULL);
+    CHECK(strstr(html, "<td class=\"n\">0.012</td>") != NULL);
+    CHECK(strstr(html, "<td class=\"n\">0.000</td>") == NULL);
     CHECK(strstr(html, "Summary") == NULL);
     /* each event's distance as a table cell */
     for (i = 0; i < f[0].res.n_events; i++) {
@@ -343,7 +354,42 @@ int main(int argc, char **argv)
     CHECK(se_report_write(&rep, path, &err) == SE_OK);
     free(html);
 
-    /* Survey of three lines. */
+    /* Survey of three lines: leg B compared with a baseline (a hand-made comparison: one new
+     * reflection at 600 m that may be a fault and a secondary one), recordings under the survey's
+     * folder shown relative to it except beside their SHA-256. */
+    memset(&cmp, 0, sizeof cmp);
+    memset(ch, 0, sizeof ch);
+    ch[0].kind = SE_CHANGE_NEW;
+    ch[0].distance_m = 600.0;
+    ch[0].reflection_now = -0.20;
+    ch[0].reflection_baseline = NAN;
+    ch[0].significance = 346.2;
+    ch[0].event_now = 2;
+    ch[0].event_baseline = -1;
+    ch[1].kind = SE_CHANGE_STRENGTH;
+    ch[1].distance_m = 1000.0;
+    ch[1].reflection_now = -0.55;
+    ch[1].reflection_baseline = -0.60;
+    ch[1].significance = 20.0;
+    ch[1].event_now = 4;
+    ch[1].event_baseline = 3;
+    ch[1].secondary = 1;
+    cmp.stretch = 1.0 / 1.003;
+    cmp.speed_change = 0.003;
+    cmp.gain = 1.0;
+    cmp.correlation = 0.98;
+    cmp.residual_sigma = 0.0004;
+    cmp.threshold = 0.0018;
+    cmp.threshold_sigma = 4.4;
+    cmp.changes = ch;
+    cmp.n_changes = 2;
+    cmp.n_faults = 1;
+    rl[1].compare = &cmp;
+    rl[1].baseline_label = "the 2024 survey";
+    rl[1].baseline_file = "/srv/site 9/2024/leg-b.wav";
+    rl[1].baseline_sha256 = "ab01ab01ab01ab01ab01ab01ab01ab01ab01ab01ab01ab01ab01ab01ab01ab01";
+    info[1].input_file = "/srv/site 9/2025/leg-b.wav";
+    rep.base_dir = "/srv/site 9";
     rep.n_lines = 3;
     rep.title = "Mooring survey";
     html = se_report_html(&rep, &err);
@@ -355,7 +401,28 @@ int main(int argc, char **argv)
         CHECK(sum != NULL && s1 != NULL && sum < s1);
         CHECK(strstr(html, "id=\"line-3\"") != NULL && strstr(html, "href=\"#line-3\"") != NULL);
         CHECK(strstr(html, "id=\"l3-event-5\"") != NULL && count(html, "id=\"l1-event-5\"") == 1);
-        CHECK(count(html, "<svg") == 3);
+        CHECK(count(html, "<svg id=") == 3);
+        /* the summary: leg B's finding is the comparison's, flagged by a word and a shape, its
+         * recording as the survey file gives it; the full paths only in the input files table */
+        {
+            const char *row = strstr(html, "href=\"#line-2\"");
+            const char *end = row != NULL ? strstr(row, "</tr>") : NULL;
+            const char *want = "Since the 2024 survey (speed +0.30 %): new reflection at 600.0 m, 346 sigma.";
+            const char *hit = row != NULL ? strstr(row, want) : NULL;
+            const char *flag = row != NULL ? strstr(row, "<span class=\"flag\"><svg") : NULL;
+            const char *rec = row != NULL ? strstr(row, "<td>2025/leg-b.wav</td>") : NULL;
+            CHECK(end != NULL && hit != NULL && hit < end && flag != NULL && flag < hit && rec != NULL && rec < end);
+            CHECK(strstr(html, "<tr class=\"attention\"><td><a href=\"#line-2\">") != NULL);
+            CHECK(strstr(html, "<td>/srv/site 9/2025/leg-b.wav</td><td>recording</td>") != NULL);
+            CHECK(strstr(html, "<td>/srv/site 9/2024/leg-b.wav</td><td>baseline recording</td>") != NULL);
+            CHECK(count(html, "/srv/site 9/") == 2);
+            CHECK(strstr(html, rl[1].baseline_sha256) != NULL);
+            CHECK(strstr(html, "Baseline recording 2024/leg-b.wav") != NULL);
+            CHECK(strstr(html, "<h3>Changes since the 2024 survey</h3>") != NULL);
+            CHECK(strstr(html, "secondary: not a fault") != NULL);
+            CHECK(strstr(html, "<strong>new since the baseline</strong>") != NULL);
+            CHECK(strstr(html, "No baseline to compare with.") != NULL); /* legs A and C */
+        }
         CHECK(strstr(html, "2 % .") == NULL && strstr(html, "standard uncertainty of 2 %") != NULL);
         CHECK(strstr(html, "Changed since the 2024 baseline") != NULL);
         CHECK(count(html, "Expected versus found") == 2);
@@ -365,6 +432,10 @@ int main(int argc, char **argv)
         CHECK(write_text(path, html));
     }
     free(html);
+
+    rl[1].compare = NULL;
+    rl[1].baseline_file = NULL;
+    rep.base_dir = NULL;
 
     /* Feet. */
     rep.n_lines = 1;

@@ -10,7 +10,9 @@ and a survey file naming them, one with a baseline recording:
 - the leg with a baseline reports exactly one change that may be a fault, the reflector added;
 - no progress bar when stderr is not a terminal;
 - a survey file error names FILE:LINE:COLUMN and exits 3; a bad --shard exits 2;
-- the combined report holds every line's name.
+- the combined report holds every line's name; run with the survey file's full path it shows the
+  recordings as the file gives them (legs/...), the full paths only beside their SHA-256, and the
+  baseline line's finding as the comparison's sentence, flagged "Possible fault".
 
 Oracle: the simulated lines themselves and the single-run results (common practice, no source)."""
 import json
@@ -59,6 +61,7 @@ lines:
   - name: Guy B
     recording: legs/b-now.wav
     baseline: legs/b-before.wav
+    baseline_date: "2025"
     pulse_channel: 2
     tension: 20 kN
     mass_per_length: 1.25 kg/m
@@ -124,6 +127,27 @@ def main():
         for name in ("Guy A", "Guy B", "Guy C", "Fenwold test mast"):
             check(name in html, "report holds %s" % name)
 
+        # the survey file by its full path: the report shows the paths the survey file gives
+        full = os.path.join(tmp, "site.yaml")
+        rc, _, se = run(["survey", full, "--report", "abs.html", "--quiet"], tmp)
+        check(rc == 0, "survey by full path exit 0 (%s)" % se)
+        html = open(os.path.join(tmp, "abs.html")).read()
+        for rec in ("legs/a.wav", "legs/b-now.wav", "legs/c.wav"):
+            check("<td>%s</td>" % rec in html, "summary shows %s as given" % rec)
+            check("<td>%s</td><td>recording</td>" % os.path.join(tmp, rec) in html,
+                  "input files table shows %s in full" % rec)
+        check("<td>%s</td><td>baseline recording</td>" % os.path.join(tmp, "legs/b-before.wav") in html,
+              "the baseline recording with its SHA-256")
+        check(html.count(tmp + "/") == 4, "the run's folder only in the input files table (%d times)"
+              % html.count(tmp + "/"))
+        row = html[html.find('href="#line-2"'):]
+        row = row[:row.find("</tr>")]
+        check("Possible fault</span>" in row and
+              "Since the 2025 survey (speed +0.30 %): new reflection at 91." in row,
+              "Guy B's summary finding is the comparison's, flagged: %r" % row[-300:])
+        check("Possible fault" not in html[html.find('href="#line-1"'):html.find('href="#line-2"')],
+              "Guy A is not flagged")
+
         # three single runs equal the threaded survey's objects
         for o, rec in zip(objs, ["legs/a.wav", "legs/b-now.wav", "legs/c.wav"]):
             rc, so, se = run(["locate", rec, "--pulse-channel", "2", "--tension", "20 kN",
@@ -168,6 +192,11 @@ def main():
         rc, _, se = run(["survey", "bad.yaml"], tmp)
         check(rc == 3 and "bad.yaml:5:5" in se and "speeed" in se,
               "unknown key named with FILE:LINE:COLUMN, exit 3 (%d %s)" % (rc, se))
+        with open(os.path.join(tmp, "nobase.yaml"), "w") as f:
+            f.write("lines:\n  - recording: legs/a.wav\n    speed: 100\n    baseline_date: 2025\n")
+        rc, _, se = run(["survey", "nobase.yaml"], tmp)
+        check(rc == 3 and "nobase.yaml:4:20" in se and "baseline_date without a baseline" in se,
+              "baseline_date needs a baseline (%d %s)" % (rc, se))
         with open(os.path.join(tmp, "nospeed.yaml"), "w") as f:
             f.write("lines:\n  - recording: legs/a.wav\n")
         rc, _, se = run(["survey", "nospeed.yaml"], tmp)

@@ -106,6 +106,20 @@ se_status se_compare(const se_locate_result *baseline, const se_locate_result *n
                      const se_compare_config *cfg, se_compare_result *out, se_error *err);
 void se_compare_result_free(se_compare_result *res);
 
+/* The comparison in one sentence for a summary table or a report (no capital, no full stop):
+ *   "since the 2025 survey (speed +0.30 %): new reflection at 112.2 m, 346 sigma"
+ * listing every change that is not secondary ("new reflection at D", "reflection at D gone",
+ * "reflection moved by +0.50 m to D", "reflection at D changed from -0.200 to -0.350", each with its
+ * significance), or "no change that may be a fault since ... (speed ...)" followed by ", N secondary"
+ * when only secondary changes were found. since: e.g. "the 2025 survey", NULL: "the baseline".
+ * per_metre: display units per metre (1, or 1 / 0.3048 for feet); unit: "m", "ft" (NULL: "m").
+ * Numbers use a point as the decimal separator whatever the locale. buf [size: size] receives the
+ * NUL-terminated sentence; changes that do not fit are summed up as "; and N more" (": N changes
+ * that may be a fault" when not even the first fits). Errors:
+ * SE_ERR_ARG (NULL, per_metre not positive, size below 96). */
+se_status se_compare_sentence(const se_compare_result *res, const char *since, double per_metre,
+                              const char *unit, char *buf, size_t size, se_error *err);
+
 #ifdef __cplusplus
 }
 #endif

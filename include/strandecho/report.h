@@ -5,6 +5,10 @@
  * uncertainty statement, input files with SHA-256, every parameter; then all the safety cautions
  * and the tool version. docs/report.md describes the sections and the plot's visual language.
  *
+ * A line whose finding may be a fault (a change since the baseline that is not secondary, an
+ * unexpected reflection, a missing end) is flagged in the summary and its section by the words
+ * "Possible fault" in a framed badge with a warning-triangle shape, not by colour alone.
+ *
  * Every string from the user (names, notes, file paths, parameter values) is HTML-escaped. The
  * report reads no clock and no environment: the same inputs give the same bytes (a date is shown
  * only when the caller gives one). */
@@ -13,6 +17,7 @@
 
 #include <stddef.h>
 
+#include "strandecho/compare.h"
 #include "strandecho/error.h"
 #include "strandecho/jsonout.h"
 #include "strandecho/line.h"
@@ -44,6 +49,14 @@ typedef struct se_report_line {
                                           NULL: no figure */
     const se_report_param *params;     /* [size: n_params] extra parameters (CLI options...), or NULL */
     size_t n_params;
+    const se_compare_result *compare;  /* change since a baseline (se_compare with this result as
+                                          now), or NULL: the summary's finding is then the located
+                                          count, else the comparison's sentence, and the section gets
+                                          a table of the changes */
+    const char *baseline_label;        /* what the baseline was, for "since ...": e.g. "the 2025
+                                          survey"; NULL: "the baseline" */
+    const char *baseline_file;         /* the baseline recording (input files table), or NULL */
+    const char *baseline_sha256;       /* its SHA-256 (lower-case hex), or NULL */
 } se_report_line;
 
 /* The whole report. */
@@ -60,6 +73,9 @@ typedef struct se_report {
                                  when n_lines > 1 */
     double plot_width;        /* SVG size in CSS pixels; 0 = 900 */
     double plot_height;       /* 0 = 540 */
+    const char *base_dir;     /* a folder (e.g. the survey file's), or NULL: file paths under it are
+                                 shown relative to it everywhere except in the input files table,
+                                 which shows every path in full beside its SHA-256 */
 } se_report;
 
 /* Zero everything: NULL strings, metres, no lines. */

@@ -6,10 +6,11 @@
  * Life: se_survey_read -> se_survey_run (any number of times) -> se_survey_items_free,
  * se_survey_free. The survey is only read by the runner; every item owns its results.
  *
- * Threads: FFTW's planner is not thread-safe and the matched filter plans inside se_locate, so the
- * runner serialises the locate calls of its workers with a mutex of its own (created and
- * destroyed by each se_survey_run: no process-global state); reading, hashing, comparing and
- * serialising run in parallel. Results do not depend on the number of workers or on the shard. */
+ * Threads: each worker takes the next recording and does all of it (read, hash, locate, compare,
+ * serialise) side by side with the others; FFTW's own planner lock (libfftw3_threads) guards the
+ * planning inside se_locate, the runner's mutex (created and destroyed by each se_survey_run: no
+ * process-global state) only the queue and the progress count. Results do not depend on the
+ * number of workers or on the shard. */
 #ifndef SE_SURVEY_H
 #define SE_SURVEY_H
 
@@ -32,6 +33,8 @@ typedef struct se_survey_line {
     char **recordings;          /* [size: n_recordings] paths (owned), n_recordings >= 1 */
     size_t n_recordings;
     char *baseline;             /* baseline recording path or NULL (owned) */
+    char *baseline_date;        /* when the baseline was recorded, as text (e.g. "2025"), or NULL
+                                   (owned); the report says "since the 2025 survey" */
     unsigned channel;           /* response channel, 1-based (default 1) */
     unsigned pulse_channel;     /* pulse channel, 1-based, 0 = none */
     char *pulse;                /* pulse spec ("hann:20ms") or pulse file path, or NULL (owned) */
@@ -49,6 +52,8 @@ typedef struct se_survey_line {
 
 typedef struct se_survey {
     char *path;                 /* the file read (owned) */
+    char *base_dir;             /* the folder relative paths were resolved against (owned; "."
+                                   when they were taken as given) */
     char *site, *date, *prepared_by, *job; /* or NULL (owned) */
     se_survey_line *lines;      /* [size: n_lines], n_lines >= 1 */
     size_t n_lines;
@@ -63,6 +68,10 @@ se_survey *se_survey_read(const char *path, se_error *err);
 se_survey *se_survey_parse_string(const char *text, const char *base_dir, const char *name,
                                   se_error *err);
 void se_survey_free(se_survey *survey);
+
+/* A resolved path as the survey file gave it: path without the leading "base_dir/" when it has
+ * it (a pointer into path), else path itself. For display; open the resolved path. */
+const char *se_survey_path_as_given(const se_survey *survey, const char *path);
 
 /* One job: one recording of one line, with its result. */
 typedef struct se_survey_item {

@@ -50,7 +50,7 @@ static void se_progress(void *user, size_t done, size_t total)
     fflush(stderr);
 }
 
-/* The change sentence of an item, for the report's note and the table. */
+/* The change note of an item, for the terminal table (the report writes se_compare_sentence's). */
 static void se_change_note(const se_survey_item *it, const char *u, double k, char *buf, size_t size)
 {
     const se_compare_result *cr = &it->compare;
@@ -130,15 +130,13 @@ static int se_survey_report(const se_survey *sv, const se_survey_item *items, si
         rl[m].n_expected = it->n_expected;
         rl[m].plot = &pd[m];
         if (it->compared) {
-            se_change_note(it, feet ? "ft" : "m", feet ? 1.0 / 0.3048 : 1.0, notes[m], sizeof notes[m]);
-            {
-                size_t len = strlen(notes[m]);
-                const char *bn = strrchr(sl->baseline, '/');
-                snprintf(notes[m] + len, sizeof notes[m] - len, ". Baseline recording: %s.",
-                         bn != NULL ? bn + 1 : sl->baseline);
+            rl[m].compare = &it->compare;
+            rl[m].baseline_file = sl->baseline;
+            rl[m].baseline_sha256 = it->baseline_sha256;
+            if (sl->baseline_date != NULL) {
+                snprintf(notes[m], sizeof notes[m], "the %s survey", sl->baseline_date);
+                rl[m].baseline_label = notes[m];
             }
-            notes[m][0] = (char)(notes[m][0] >= 'a' && notes[m][0] <= 'z' ? notes[m][0] - 32 : notes[m][0]);
-            rl[m].note = notes[m];
         }
         m++;
     }
@@ -156,6 +154,7 @@ static int se_survey_report(const se_survey *sv, const se_survey_item *items, si
     rp.lines = rl;
     rp.n_lines = m;
     rp.survey = 1;
+    rp.base_dir = sv->base_dir;
     if (se_report_write(&rp, path, &err) != SE_OK)
         code = se_cli_fail_err(&err, 1);
 done:

@@ -2,6 +2,7 @@
 #include "strandecho/compare.h"
 
 #include <math.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -30,6 +31,7 @@ static double se_distance(const se_cmp *c, const se_compare_config *cfg, double 
 static int se_change_cmp(const void *a, const void *b);
 static double *se_transmission(const se_locate_result *res, se_error *err);
 static int se_dbl_cmp(const void *a, const void *b);
+static void se_cnum(char *out, size_t size, const char *fmt, double v);
 
 void se_compare_config_init(se_compare_config *cfg)
 {
@@ -47,6 +49,85 @@ const char *se_change_kind_name(se_change_kind kind)
     case SE_CHANGE_STRENGTH: return "changed";
     }
     return NULL;
+}
+
+/* snprintf of one number with a point as the decimal separator (the C locale's), whatever the
+ * process locale wrote. */
+static void se_cnum(char *out, size_t size, const char *fmt, double v)
+{
+    char *p;
+    if (!isfinite(v)) {
+        snprintf(out, size, "n/a");
+        return;
+    }
+    snprintf(out, size, fmt, v);
+    for (p = out; *p; p++)
+        if (!((*p >= '0' && *p <= '9') || *p == '-' || *p == '+' || *p == 'e' || *p == 'E'))
+            *p = '.';
+}
+
+se_status se_compare_sentence(const se_compare_result *res, const char *since, double per_metre,
+                              const char *unit, char *buf, size_t size, se_error *err)
+{
+    char speed[32], d[32], x[32], y[32], z[32], part[192];
+    size_t i, len, listed = 0;
+    const char *u = unit != NULL ? unit : "m";
+    if (res == NULL || buf == NULL || size < 96 || !(per_metre > 0.0) || !isfinite(per_metre))
+        return se_fail(err, SE_ERR_ARG, "compare sentence: %s",
+                       res == NULL || buf == NULL ? "NULL argument"
+                       : size < 96               ? "buffer under 96 bytes"
+                                                 : "per_metre not a positive number");
+    if (since == NULL)
+        since = "the baseline";
+    se_cnum(speed, sizeof speed, "%+.2f", res->speed_change * 100.0);
+    if (res->n_faults == 0) {
+        size_t secondary = res->n_changes;
+        snprintf(buf, size, "no change that may be a fault since %s (speed %s %%)", since, speed);
+        len = strlen(buf);
+        if (secondary > 0)
+            snprintf(buf + len, size - len, ", %zu secondary", secondary);
+        return SE_OK;
+    }
+    snprintf(buf, size, "since %s (speed %s %%):", since, speed);
+    for (i = 0; i < res->n_changes; i++) {
+        const se_change *ch = &res->changes[i];
+        size_t more = 0, k;
+        if (ch->secondary)
+            continue;
+        se_cnum(d, sizeof d, "%.1f", ch->distance_m * per_metre);
+        se_cnum(z, sizeof z, "%.0f", ch->significance);
+        switch (ch->kind) {
+        case SE_CHANGE_NEW:
+            snprintf(part, sizeof part, "new reflection at %s %s, %s sigma", d, u, z);
+            break;
+        case SE_CHANGE_GONE:
+            snprintf(part, sizeof part, "reflection at %s %s gone, %s sigma", d, u, z);
+            break;
+        case SE_CHANGE_MOVED:
+            se_cnum(x, sizeof x, "%+.2f", ch->shift_m * per_metre);
+            snprintf(part, sizeof part, "reflection moved by %s %s to %s %s, %s sigma", x, u, d, u, z);
+            break;
+        default:
+            se_cnum(x, sizeof x, "%+.3f", ch->reflection_baseline);
+            se_cnum(y, sizeof y, "%+.3f", ch->reflection_now);
+            snprintf(part, sizeof part, "reflection at %s %s changed from %s to %s, %s sigma", d, u, x, y, z);
+            break;
+        }
+        for (k = i; k < res->n_changes; k++)
+            more += !res->changes[k].secondary;
+        len = strlen(buf);
+        /* room for this part and, after it, "; and N more" */
+        if (len + 2 + strlen(part) + (more > 1 ? 24 : 0) >= size) {
+            if (listed == 0)
+                snprintf(buf + len, size - len, " %zu change%s that may be a fault", more, more == 1 ? "" : "s");
+            else
+                snprintf(buf + len, size - len, "; and %zu more", more);
+            return SE_OK;
+        }
+        snprintf(buf + len, size - len, "%s%s", listed > 0 ? "; " : " ", part);
+        listed++;
+    }
+    return SE_OK;
 }
 
 void se_compare_result_free(se_compare_result *res)

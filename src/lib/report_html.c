@@ -43,6 +43,11 @@ static const char se_css[] =
     "th,td{border:1px solid #b8b8b8;padding:3px 7px;text-align:left;vertical-align:top}"
     "th{background:#ececec;font-weight:bold}td.n{text-align:right;font-variant-numeric:tabular-nums}"
     "tr.multiple td{color:#5a5a5a;font-style:italic}tr.missing td{font-weight:bold}"
+    "tr.attention td{font-weight:bold}tr.attention td:first-child{border-left:5px solid #202020}"
+    ".flag{display:inline-block;font-weight:bold;border:1.5px solid #202020;border-radius:3px;"
+    "padding:0 5px 0 3px;margin-right:6px;white-space:nowrap;background:#fff;font-style:normal}"
+    ".flag svg{vertical-align:-2px;margin-right:4px}.also{color:#5a5a5a;font-weight:normal}"
+    "table.summary{width:100%}table.summary td:first-child,table.summary td:nth-child(2){white-space:nowrap}"
     ".finding{font-size:15px;border-left:4px solid #1d4e89;padding:4px 10px;background:#f4f4f4}"
     ".warn{border-left-color:#202020;font-weight:bold}"
     "figure{margin:10px 0}figure svg{max-width:100%;height:auto;border:1px solid #d0d0d0}"
@@ -61,6 +66,11 @@ static void se_rb_esc(se_rb *b, const char *s);
 static const char *se_rb_num(se_rb *b, double v, int decimals);
 static const char *se_rb_g(se_rb *b, double v, int digits);
 static const char *se_rb_dist(se_rb *b, double m, int decimals);
+static const char *se_rb_sig(se_rb *b, double v, int min_decimals);
+static const char *se_rel(const se_report *r, const char *path);
+static void se_flag(se_rb *b);
+static int se_attention(const se_report_line *l, int warn);
+static void se_change_sentence(se_rb *b, const se_report_line *l, char *out, size_t size);
 static int se_dist_decimals(const se_locate_result *res, double k);
 static const char *se_line_title(const se_report_line *l);
 static se_status se_rmatch_init(se_rmatch *m, const se_report_line *l, double confidence, se_error *err);
@@ -69,6 +79,7 @@ static void se_report_summary(se_rb *b, const se_report *r, se_rmatch *m);
 static se_status se_report_section(se_rb *b, const se_report *r, size_t index, se_rmatch *m, se_error *err);
 static void se_finding_sentence(se_rb *b, const se_rmatch *m, char *out, size_t size, int *warn);
 static void se_param_row(se_rb *b, const char *name, const char *value);
+static void se_report_changes(se_rb *b, const se_report *r, const se_report_line *l, int dd);
 
 static void se_rb_add(se_rb *b, const char *s)
 {
@@ -178,6 +189,71 @@ static const char *se_rb_dist(se_rb *b, double m, int decimals)
     se_fix_point(buf);
     strcat(buf, b->u[0] == 'f' ? " ft" : " m");
     return buf;
+}
+
+/* Two significant digits and at least min_decimals: an uncertainty of 0.00023 is "0.00023", not
+ * "0.000"; 0.15 with three decimals is "0.150". */
+static const char *se_rb_sig(se_rb *b, double v, int min_decimals)
+{
+    int d = min_decimals;
+    if (!isfinite(v))
+        return "&ndash;";
+    if (v != 0.0) {
+        int need = 1 - (int)floor(log10(fabs(v)));
+        if (need > d)
+            d = need;
+    }
+    return se_rb_num(b, v, d > 9 ? 9 : d);
+}
+
+/* A path as shown outside the input files table: relative to the report's base folder when under
+ * it (the survey file's folder, so the report shows what the survey file says, not the folders of
+ * the machine that ran it). */
+static const char *se_rel(const se_report *r, const char *path)
+{
+    size_t n;
+    if (path == NULL || r->base_dir == NULL || r->base_dir[0] == '\0' || strcmp(r->base_dir, ".") == 0)
+        return path;
+    n = strlen(r->base_dir);
+    if (r->base_dir[n - 1] == '/')
+        n--;
+    if (strncmp(path, r->base_dir, n) == 0 && path[n] == '/' && path[n + 1] != '\0')
+        return path + n + 1;
+    return path;
+}
+
+/* The "may be a fault" badge: a word and a shape (a filled warning triangle), so it does not rest on
+ * colour; near-black like the rest of the report's emphasis. */
+static void se_flag(se_rb *b)
+{
+    se_rb_add(b, "<span class=\"flag\"><svg width=\"14\" height=\"13\" viewBox=\"0 0 14 13\" aria-hidden=\"true\">"
+                 "<path d=\"M7 0.6L13.6 12.4H0.4Z\" fill=\"#202020\"/><path d=\"M7 4.3V8.6\" stroke=\"#ffffff\" "
+                 "stroke-width=\"1.7\"/><circle cx=\"7\" cy=\"10.5\" r=\"0.95\" fill=\"#ffffff\"/></svg>"
+                 "Possible fault</span>");
+}
+
+/* 1 when the line's finding may be a fault: a change since the baseline that is not secondary, or
+ * what the locate sentence flags (an unexpected reflection, a missing end). */
+static int se_attention(const se_report_line *l, int warn)
+{
+    return warn || (l->compare != NULL && l->compare->n_faults > 0);
+}
+
+/* The comparison's sentence, capitalised, with a full stop. */
+static void se_change_sentence(se_rb *b, const se_report_line *l, char *out, size_t size)
+{
+    size_t n;
+    if (se_compare_sentence(l->compare, l->baseline_label, b->k, b->u, out, size, NULL) != SE_OK) {
+        snprintf(out, size, "Compared with the baseline.");
+        return;
+    }
+    if (out[0] >= 'a' && out[0] <= 'z')
+        out[0] = (char)(out[0] - 'a' + 'A');
+    n = strlen(out);
+    if (n + 1 < size && n > 0 && out[n - 1] != '.') {
+        out[n] = '.';
+        out[n + 1] = '\0';
+    }
 }
 
 /* Decimals that the resolution justifies. */
@@ -302,16 +378,71 @@ static void se_param_row(se_rb *b, const char *name, const char *value)
     se_rb_add(b, "</td></tr>\n");
 }
 
+/* The table of changes since the baseline, with how the two recordings were put side by side. */
+static void se_report_changes(se_rb *b, const se_report *r, const se_report_line *l, int dd)
+{
+    const se_compare_result *c = l->compare;
+    size_t i;
+    se_rb_add(b, "<h3>Changes since ");
+    se_rb_esc(b, l->baseline_label != NULL ? l->baseline_label : "the baseline");
+    se_rb_add(b, "</h3>\n<p>");
+    if (l->baseline_file != NULL) {
+        se_rb_add(b, "Baseline recording ");
+        se_rb_esc(b, se_rel(r, l->baseline_file));
+        se_rb_add(b, ", aligned on the outgoing pulse. ");
+    }
+    se_rb_printf(b, "The wave speed %s by %s %% (delays stretched by %s%s), the gain by a factor %s; "
+                    "the two traces correlate at %s. What is left after taking these out has a noise of %s "
+                    "(reflection units) and a detection threshold of %s (%s sigma); every residual peak above it "
+                    "is listed. Secondary changes are explained without a fault there: multiples, or an echo "
+                    "dimmed by a change in front of it.</p>\n",
+                 c->speed_change < 0.0 ? "fell" : "rose", se_rb_num(b, fabs(c->speed_change) * 100.0, 2),
+                 se_rb_g(b, c->stretch, 7),
+                 c->stretch_from_echoes ? ", from the common echoes" : "", se_rb_g(b, c->gain, 4),
+                 se_rb_num(b, c->correlation, 3), se_rb_g(b, c->residual_sigma, 3), se_rb_g(b, c->threshold, 3),
+                 se_rb_num(b, c->threshold_sigma, 1));
+    se_rb_printf(b, "<table class=\"changes\"><thead><tr><th>Change</th><th>Distance (%s)</th><th>Shift (%s)</th>"
+                    "<th>Reflection now</th><th>Before</th><th>Significance (&sigma;)</th><th>Event</th>"
+                    "<th>Reading</th></tr></thead><tbody>\n",
+                 b->u, b->u);
+    for (i = 0; i < c->n_changes; i++) {
+        const se_change *ch = &c->changes[i];
+        se_rb_printf(b, "<tr%s><td>%s</td><td class=\"n\">%s</td><td class=\"n\">%s</td><td class=\"n\">%s</td>"
+                        "<td class=\"n\">%s</td><td class=\"n\">%s</td><td class=\"n\">",
+                     ch->secondary ? " class=\"multiple\"" : " class=\"attention\"", se_change_kind_name(ch->kind),
+                     se_rb_num(b, ch->distance_m * b->k, dd),
+                     ch->kind == SE_CHANGE_MOVED ? se_rb_num(b, ch->shift_m * b->k, dd + 1) : "&ndash;",
+                     se_rb_num(b, ch->reflection_now, 3), se_rb_num(b, ch->reflection_baseline, 3),
+                     se_rb_num(b, ch->significance, 1));
+        if (ch->event_now >= 0)
+            se_rb_printf(b, "%d", ch->event_now + 1);
+        else
+            se_rb_add(b, "&ndash;");
+        se_rb_add(b, "</td><td>");
+        if (ch->secondary)
+            se_rb_add(b, "secondary: not a fault");
+        else
+            se_flag(b);
+        se_rb_add(b, "</td></tr>\n");
+    }
+    if (c->n_changes == 0)
+        se_rb_add(b, "<tr><td colspan=\"8\">No change above the threshold.</td></tr>\n");
+    se_rb_add(b, "</tbody></table>\n");
+}
+
 static void se_report_summary(se_rb *b, const se_report *r, se_rmatch *m)
 {
     size_t i, j;
+    int any_compare = 0;
+    for (i = 0; i < r->n_lines; i++)
+        any_compare |= r->lines[i].compare != NULL;
     se_rb_add(b, "<h2>Summary</h2>\n<table class=\"summary\"><thead><tr><th>Line</th><th>Recording</th>"
                  "<th>Reflections</th><th>Expected found</th>");
     se_rb_printf(b, "<th>Farthest primary (%s)</th><th>Finding</th></tr></thead><tbody>\n", b->u);
     for (i = 0; i < r->n_lines; i++) {
         const se_locate_result *res = m[i].res;
         char sentence[512];
-        int warn;
+        int warn, attention;
         double far = NAN;
         size_t found = 0;
         for (j = 0; j < res->n_events; j++)
@@ -321,17 +452,33 @@ static void se_report_summary(se_rb *b, const se_report *r, se_rmatch *m)
             for (j = 0; j < m[i].nex && j < res->n_expected; j++)
                 found += res->expected_found[j] >= 0;
         se_finding_sentence(b, &m[i], sentence, sizeof sentence, &warn);
-        se_rb_printf(b, "<tr%s><td><a href=\"#line-%zu\">", warn ? " class=\"missing\"" : "", i + 1);
+        attention = se_attention(&r->lines[i], warn);
+        se_rb_printf(b, "<tr%s><td><a href=\"#line-%zu\">", attention ? " class=\"attention\"" : "", i + 1);
         se_rb_esc(b, se_line_title(&r->lines[i]));
         se_rb_add(b, "</a></td><td>");
-        se_rb_esc(b, r->lines[i].info->input_file);
+        se_rb_esc(b, se_rel(r, r->lines[i].info->input_file));
         se_rb_printf(b, "</td><td class=\"n\">%zu</td><td class=\"n\">", res->n_events);
         if (m[i].nex > 0)
             se_rb_printf(b, "%zu / %zu", found, m[i].nex);
         else
             se_rb_add(b, "no line described");
         se_rb_printf(b, "</td><td class=\"n\">%s</td><td>", se_rb_num(b, far * b->k, se_dist_decimals(res, b->k)));
-        se_rb_esc(b, sentence);
+        if (attention)
+            se_flag(b);
+        if (r->lines[i].compare != NULL) {
+            char change[512];
+            se_change_sentence(b, &r->lines[i], change, sizeof change);
+            se_rb_esc(b, change);
+            if (warn) { /* what the line description flags as well */
+                se_rb_add(b, " <span class=\"also\">");
+                se_rb_esc(b, sentence);
+                se_rb_add(b, "</span>");
+            }
+        } else {
+            se_rb_esc(b, sentence);
+            if (any_compare)
+                se_rb_add(b, " <span class=\"also\">No baseline to compare with.</span>");
+        }
         se_rb_add(b, "</td></tr>\n");
     }
     se_rb_add(b, "</tbody></table>\n");
@@ -353,6 +500,15 @@ static se_status se_report_section(se_rb *b, const se_report *r, size_t index, s
         se_rb_printf(b, "%zu. ", index + 1);
     se_rb_esc(b, se_line_title(l));
     se_rb_add(b, "</h2>\n");
+    if (l->compare != NULL) {
+        char change[512];
+        se_change_sentence(b, l, change, sizeof change);
+        se_rb_printf(b, "<p class=\"finding%s\">", l->compare->n_faults > 0 ? " warn" : "");
+        if (l->compare->n_faults > 0)
+            se_flag(b);
+        se_rb_esc(b, change);
+        se_rb_add(b, "</p>\n");
+    }
     if (l->note != NULL) {
         se_rb_add(b, "<p class=\"finding\">");
         se_rb_esc(b, l->note);
@@ -375,7 +531,7 @@ static se_status se_report_section(se_rb *b, const se_report *r, size_t index, s
         se_rb_add(b, ", far end ");
         se_rb_esc(b, ln->end_name != NULL ? ln->end_name : "not given");
         se_rb_add(b, " (described in ");
-        se_rb_esc(b, info->line_file != NULL ? info->line_file : ln->source_name);
+        se_rb_esc(b, se_rel(r, info->line_file != NULL ? info->line_file : ln->source_name));
         se_rb_add(b, ").</p>\n");
         se_rb_printf(b, "<table><thead><tr><th>Segment</th><th>From (%s)</th><th>To (%s)</th><th>Speed (m/s)</th>"
                         "<th>Impedance (%s)</th><th>Features</th></tr></thead><tbody>\n",
@@ -408,6 +564,8 @@ static se_status se_report_section(se_rb *b, const se_report *r, size_t index, s
     se_rb_add(b, "<h3>Findings</h3>\n");
     se_finding_sentence(b, m, sentence, sizeof sentence, &warn);
     se_rb_printf(b, "<p class=\"finding%s\">", warn ? " warn" : "");
+    if (warn)
+        se_flag(b);
     se_rb_esc(b, sentence);
     se_rb_add(b, "</p>\n");
     if (l->plot != NULL) {
@@ -446,9 +604,9 @@ static se_status se_report_section(se_rb *b, const se_report *r, size_t index, s
                         "<td class=\"n\">%s</td><td>%s</td><td>%s</td><td class=\"n\">%s</td><td class=\"n\">%s</td>"
                         "<td class=\"n\">%s</td><td>",
                      ev->multiple ? " class=\"multiple\"" : "", i + 1, se_rb_num(b, ev->distance_m * b->k, dd),
-                     se_rb_num(b, ev->distance_uncertainty_m * b->k, dd + 1), se_rb_num(b, ev->delay_s * 1e3, 4),
+                     se_rb_sig(b, ev->distance_uncertainty_m * b->k, dd + 1), se_rb_num(b, ev->delay_s * 1e3, 4),
                      se_event_class(res, ev), se_event_polarity(ev), se_rb_num(b, ev->reflection, 3),
-                     se_rb_num(b, ev->reflection_uncertainty, 3), se_rb_num(b, ev->snr_db, 1));
+                     se_rb_sig(b, ev->reflection_uncertainty, 3), se_rb_num(b, ev->snr_db, 1));
         if (ev->multiple) {
             se_rb_add(b, "multiple");
             if (ev->multiple_of[0] >= 0)
@@ -462,6 +620,20 @@ static se_status se_report_section(se_rb *b, const se_report *r, size_t index, s
         } else if (m->nex > 0) {
             se_rb_add(b, "<strong>not expected</strong>");
         }
+        if (l->compare != NULL) {
+            size_t c;
+            for (c = 0; c < l->compare->n_changes; c++) {
+                const se_change *ch = &l->compare->changes[c];
+                if (ch->event_now != (int)i || ch->secondary)
+                    continue;
+                se_rb_printf(b, "%s<strong>%s since the baseline</strong>",
+                             ev->multiple || (m->nex > 0) ? "; " : "",
+                             ch->kind == SE_CHANGE_NEW     ? "new"
+                             : ch->kind == SE_CHANGE_MOVED ? "moved"
+                                                           : "changed in strength");
+                break;
+            }
+        }
         if (ev->low_confidence)
             se_rb_add(b, "; low confidence: the delay may sit on a wrong peak");
         if (res->break_event == (int)i && res->end_missing)
@@ -471,6 +643,9 @@ static se_status se_report_section(se_rb *b, const se_report *r, size_t index, s
     if (res->n_events == 0)
         se_rb_add(b, "<tr><td colspan=\"10\">No reflection above the detection threshold.</td></tr>\n");
     se_rb_add(b, "</tbody></table>\n");
+
+    if (l->compare != NULL)
+        se_report_changes(b, r, l, dd);
 
     /* Expected versus found. */
     if (m->nex > 0) {
@@ -534,6 +709,13 @@ static se_status se_report_section(se_rb *b, const se_report *r, size_t index, s
         se_rb_esc(b, info->reference_sha256);
         se_rb_add(b, "</td></tr>\n");
     }
+    if (l->baseline_file != NULL) {
+        se_rb_add(b, "<tr><td>");
+        se_rb_esc(b, l->baseline_file);
+        se_rb_add(b, "</td><td>baseline recording</td><td class=\"hash\">");
+        se_rb_esc(b, l->baseline_sha256 != NULL ? l->baseline_sha256 : "not computed");
+        se_rb_add(b, "</td></tr>\n");
+    }
     if (info->line_file != NULL) {
         se_rb_add(b, "<tr><td>");
         se_rb_esc(b, info->line_file);
@@ -553,8 +735,11 @@ static se_status se_report_section(se_rb *b, const se_report *r, size_t index, s
         se_param_row(b, "sample rate", v);
         se_param_row(b, "quantity", se_quantity_name(res->quantity));
         se_param_row(b, "line kind", res->electrical ? "electrical" : "mechanical");
-        snprintf(v, sizeof v, "%s, %zu samples", info->reference != NULL ? info->reference : "not given",
-                 res->reference_length);
+        if (info->reference != NULL && strncmp(info->reference, "file ", 5) == 0)
+            snprintf(v, sizeof v, "file %s, %zu samples", se_rel(r, info->reference + 5), res->reference_length);
+        else
+            snprintf(v, sizeof v, "%s, %zu samples", info->reference != NULL ? info->reference : "not given",
+                     res->reference_length);
         se_param_row(b, "reference pulse", v);
         snprintf(v, sizeof v, "%s m/s", se_rb_g(b, res->speed_m_s, 6));
         se_param_row(b, "speed at the sensor", v);
@@ -696,7 +881,7 @@ char *se_report_html(const se_report *r, se_error *err)
         se_rb_add(b, "Reflectometry of ");
         se_rb_esc(b, se_line_title(l));
         se_rb_add(b, ": a pulse injected at the sensor end, its echoes recorded in ");
-        se_rb_esc(b, l->info->input_file != NULL ? l->info->input_file : "the recording");
+        se_rb_esc(b, l->info->input_file != NULL ? se_rel(r, l->info->input_file) : "the recording");
         se_rb_printf(b, " (%s) and located along the line by matched filtering.", se_quantity_name(l->result->quantity));
     } else {
         se_rb_printf(b, "Reflectometry survey of %zu lines", r->n_lines);

@@ -135,7 +135,7 @@ static se_status se_sp_path(const se_sp *p, const yaml_node_t *node, const char 
 }
 
 static const char *const se_line_keys[] = {
-    "name", "line", "recording", "recordings", "baseline", "channel", "pulse_channel", "pulse",
+    "name", "line", "recording", "recordings", "baseline", "baseline_date", "channel", "pulse_channel", "pulse",
     "quantity", "speed", "velocity_factor", "tension", "mass_per_length", "axial_stiffness",
     "speed_uncertainty", "source_end", "false_alarms", "confidence", NULL};
 
@@ -173,6 +173,15 @@ static se_status se_sp_line(const se_sp *p, const yaml_node_t *map, size_t index
     if ((n = se_sp_get(p, map, "baseline")) != NULL &&
         (st = se_sp_path(p, n, "baseline", &l->baseline)) != SE_OK)
         return st;
+    if ((n = se_sp_get(p, map, "baseline_date")) != NULL) {
+        if ((st = se_sp_text(p, n, "baseline_date", &v)) != SE_OK)
+            return st;
+        if (l->baseline == NULL)
+            return se_sp_fail(p, n, SE_ERR_FORMAT, "%s '%s': baseline_date without a baseline recording",
+                              where, l->name);
+        if ((l->baseline_date = se_strdup(v, p->err)) == NULL)
+            return SE_ERR_NOMEM;
+    }
     recs = se_sp_get(p, map, "recordings");
     n = se_sp_get(p, map, "recording");
     if ((recs == NULL) == (n == NULL))
@@ -404,7 +413,8 @@ se_survey *se_survey_parse_string(const char *text, const char *base_dir, const 
     if ((st = se_sp_keys(&p, root, top_keys, "the survey file")) != SE_OK)
         goto fail;
     s->path = se_strdup(p.name, err);
-    if (s->path == NULL) {
+    s->base_dir = se_strdup(p.base, err);
+    if (s->path == NULL || s->base_dir == NULL) {
         st = SE_ERR_NOMEM;
         goto fail;
     }
@@ -526,6 +536,7 @@ static void se_survey_line_free(se_survey_line *l)
         free(l->recordings[i]);
     free(l->recordings);
     free(l->baseline);
+    free(l->baseline_date);
     free(l->pulse);
 }
 
@@ -538,11 +549,26 @@ void se_survey_free(se_survey *s)
         se_survey_line_free(&s->lines[i]);
     free(s->lines);
     free(s->path);
+    free(s->base_dir);
     free(s->site);
     free(s->date);
     free(s->prepared_by);
     free(s->job);
     free(s);
+}
+
+const char *se_survey_path_as_given(const se_survey *survey, const char *path)
+{
+    size_t n;
+    if (survey == NULL || path == NULL || survey->base_dir == NULL || strcmp(survey->base_dir, ".") == 0)
+        return path;
+    n = strlen(survey->base_dir);
+    /* se_sp_path joins base and the given path with one '/' (a root base "/" ends in it already) */
+    if (strncmp(path, survey->base_dir, n) != 0)
+        return path;
+    if (n > 0 && survey->base_dir[n - 1] == '/')
+        return path[n] != '\0' ? path + n : path;
+    return path[n] == '/' && path[n + 1] != '\0' ? path + n + 1 : path;
 }
 
 void se_survey_run_config_init(se_survey_run_config *cfg)
@@ -558,11 +584,11 @@ static se_status se_survey_locate(se_runner *r, const se_survey_line *sl, const 
 {
     se_recording *rec, *pr = NULL;
     se_locate_config cfg;
-    (void)r;
     double *owned = NULL;
     se_status st;
     char desc[160] = "";
 
+    (void)r;
     memset(res, 0, sizeof *res);
     rec = se_recording_read(path, NULL, err);
     if (rec == NULL)
