@@ -44,6 +44,7 @@ static void test_no_time_base(void);
 static void test_noise_falls(void);
 static void test_clipping(void);
 static void test_refusals(void);
+static void test_mono_windows(void);
 
 /* A 40-sample burst: 8 cycles of 0.1 cycles/sample under a Gaussian window. */
 static double ts_burst(double u)
@@ -392,6 +393,66 @@ static void test_refusals(void)
     se_locate_result_free(&str);
     remove(path);
 }
+/* A mono file (read straight into the chunk buffers) with the reference given, its windows
+ * recomputed from the file at the end: the same answer as se_locate on the response channel, and
+ * no more windows recomputed than events found (noise clusters below the threshold are skipped). */
+static void test_mono_windows(void)
+{
+    char path[4096], mono[4096];
+    se_locate_result whole, str;
+    se_recording *rec;
+    double *ref = NULL;
+    size_t m = 0, b, e, k;
+    se_error err;
+    const size_t blocks[] = {1, 0};
+    se_test_binary_path(path, sizeof path, "stream_m2.wav");
+    se_test_binary_path(mono, sizeof mono, "stream_m1.wav");
+    if (!CHECK(ts_write(path, 200003, ts_echoes, 6, 1e-3, 1e-3, 0.0, 23)))
+        return;
+    if (!ts_whole(path, 1, &whole, &ref, &m))
+        return;
+    se_error_clear(&err);
+    rec = se_recording_read(path, NULL, &err);
+    if (!CHECK(rec != NULL))
+        goto out;
+    {
+        const double *ch[1];
+        ch[0] = se_recording_channel(rec, 0);
+        CHECK(se_pulse_support(se_recording_channel(rec, 1), rec->frames, &b, &e, &err) == SE_OK);
+        CHECK(se_recording_write(mono, ch, 1, rec->frames, TS_FS, &err) == SE_OK);
+    }
+    se_recording_free(rec);
+    for (k = 0; k < sizeof blocks / sizeof blocks[0]; k++) {
+        se_stream_config sc;
+        se_locate_config cfg;
+        se_stream_info info;
+        char what[64];
+        se_stream_config_init(&sc);
+        sc.block = blocks[k];
+        se_locate_config_init(&cfg);
+        cfg.speed_m_s = TS_V;
+        cfg.max_events = ts_max_events;
+        cfg.reference = ref;
+        cfg.reference_length = m;
+        cfg.reference_offset = b;
+        cfg.reference_kind = SE_REF_CHANNEL;
+        snprintf(what, sizeof what, "mono, block %zu", blocks[k]);
+        if (!CHECK(se_locate_stream(mono, &cfg, &sc, &str, &info, &err) == SE_OK)) {
+            printf("  %s: %s\n", what, err.message);
+            continue;
+        }
+        CHECK(info.channels == 1 && info.passes == 1);
+        CHECK(info.windows >= 1 && info.windows <= whole.n_events);
+        CHECK(info.window_samples > 0);
+        ts_compare(&whole, &str, 1, what);
+        se_locate_result_free(&str);
+    }
+out:
+    se_locate_result_free(&whole);
+    free(ref);
+    remove(path);
+    remove(mono);
+}
 
 int main(void)
 {
@@ -400,5 +461,6 @@ int main(void)
     test_noise_falls();
     test_clipping();
     test_refusals();
+    test_mono_windows();
     return se_test_done("test_stream");
 }
