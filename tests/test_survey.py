@@ -123,13 +123,16 @@ def main():
         check([o["survey"]["line_index"] for o in objs] == [1, 2, 3], "survey order")
         for name in ("Guy A", "Guy B", "Guy C"):
             check(name in so1, "summary table names %s" % name)
+        check(" legs/b-now.wav " in so1, "summary table shows the recording as the survey file gives it")
         html = open(os.path.join(tmp, "site.html")).read()
         for name in ("Guy A", "Guy B", "Guy C", "Fenwold test mast"):
             check(name in html, "report holds %s" % name)
 
         # the survey file by its full path: the report shows the paths the survey file gives
         full = os.path.join(tmp, "site.yaml")
-        rc, _, se = run(["survey", full, "--report", "abs.html", "--quiet"], tmp)
+        rc, so, se = run(["survey", full, "--report", "abs.html"], tmp)
+        check(" legs/c.wav " in so and tmp + "/legs" not in so.split("\n\n")[1],
+              "the table shows legs/c.wav, not the full path")
         check(rc == 0, "survey by full path exit 0 (%s)" % se)
         html = open(os.path.join(tmp, "abs.html")).read()
         for rec in ("legs/a.wav", "legs/b-now.wav", "legs/c.wav"):

@@ -284,11 +284,10 @@ int se_cmd_survey(int argc, char **argv)
         for (i = 0; i < n; i++) {
             const se_survey_item *it = &items[i];
             const se_survey_line *sl = &sv->lines[it->line];
-            const char *rec = strrchr(sl->recordings[it->recording], '/');
+            const char *rec = se_survey_path_as_given(sv, sl->recordings[it->recording]);
             char note[512], far[32] = "-";
             size_t e, prim = 0, unexp = 0;
             double farthest = -1.0;
-            rec = rec != NULL ? rec + 1 : sl->recordings[it->recording];
             if (it->status != SE_OK) {
                 printf(" %-18.18s %-26.26s %6s %8s %10s  FAILED: %s\n", sl->name, rec, "-", "-", "-",
                        se_strerror(it->status));
