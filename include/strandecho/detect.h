@@ -72,6 +72,69 @@ se_status se_noise_mad(const double *r, size_t start, size_t end, size_t max_sam
  * Returns NaN if an argument is not positive and finite. */
 double se_rice_k(double n_lags, double beta_rad_per_sample, double false_alarms);
 
+/* Non-stationary noise: a sliding-window robust noise profile of r (cfar.c).
+ * The searched lags [start, end) are cut into blocks of se_noise_block_length(m) lags (the last
+ * block takes the remainder, so it holds between one and two blocks' lags); each block's noise is
+ * the MAD sigma of its own lags (se_noise_mad on the block, at most SE_NOISE_BLOCK_SAMPLES of them,
+ * strided). When the largest block sigma is less than SE_NOISE_VARY_RATIO times the smallest the
+ * noise is taken as stationary and no profile is used (the global Rice threshold holds unchanged).
+ * Otherwise blocks are grouped into runs of neighbours within a factor SE_NOISE_RUN_RATIO of each
+ * other; a block of a run of two or more takes the mean sigma of the blocks of its run within 4
+ * blocks of it (a piecewise-constant level estimated on many lags); a block alone in its run (a
+ * change of level falls inside it, or an outlier) takes the largest of its own and its
+ * neighbours' raw sigmas. Within `guard` lags (the reference length) of a block edge the larger
+ * of the two blocks' levels is used, since r mixes the noise of both sides over one pulse length.
+ * The threshold at lag j is then k sigma(j), k from se_rice_k on the whole record: the stated
+ * false-alarm count per record holds, spread over the record in proportion to the lags. */
+#define SE_NOISE_BLOCK_SAMPLES ((size_t)1 << 13)
+#define SE_NOISE_VARY_RATIO 2.0
+#define SE_NOISE_RUN_RATIO 1.5
+typedef struct se_noise_profile {
+    size_t start;    /* first lag of block 0 */
+    size_t block;    /* lags per block (the last block runs to the end of the range) */
+    size_t n_blocks;
+    size_t guard;    /* lags near a block edge that take the larger neighbouring level */
+    double *sigma;   /* [size: n_blocks] level of each block, r units; owned (se_noise_profile_free) */
+    double *raw;     /* [size: n_blocks] each block's own MAD sigma before grouping; owned */
+    double min_sigma, max_sigma; /* extremes of sigma */
+} se_noise_profile;
+/* Block length (lags) for a reference pulse of m samples: max(4096, 256 m). A block then holds
+ * several hundred independent noise values, so its MAD sigma scatters by a few per cent. */
+size_t se_noise_block_length(size_t m);
+/* Number of blocks for the lag range [start, end) and block length L: (end - start) / L
+ * (0 when the range is shorter than one block). Block b covers [start + b L, start + (b+1) L),
+ * the last one [start + (nb-1) L, end). */
+size_t se_noise_block_count(size_t start, size_t end, size_t block);
+/* One block's lags r_block [size: len]: *sigma its MAD sigma (se_noise_mad from 0 to len, at most
+ * SE_NOISE_BLOCK_SAMPLES values), *hi the largest of *sigma and the MAD sigmas of its 8 equal parts
+ * (part q covers [q len/8, (q+1) len/8), the last to len; parts under 16 lags are skipped). The MAD
+ * of a block ignores a loud minority of its lags; its parts do not. These are the values
+ * se_noise_profile_estimate takes for the block. */
+se_status se_noise_block_sigma(const double *r_block, size_t len, double *sigma, double *hi,
+                               se_error *err);
+/* From the block sigmas raw and hi [size: nb >= 1] (se_noise_block_sigma; read, not kept), each
+ * raw floored at floor (>= 0): a block whose hi exceeds SE_NOISE_RUN_RATIO times its raw sigma
+ * holds a change of level and is treated as a block alone in its run (its level: the largest of
+ * its hi and its neighbours' raw sigmas). Non-stationary when max(raw, hi) >= SE_NOISE_VARY_RATIO
+ * min(raw). Fills
+ * *out and sets *varies = 1 when the noise is found non-stationary (nb >= 3 and the max/min
+ * ratio reaches SE_NOISE_VARY_RATIO); else *varies = 0 and *out is left empty (zeroed).
+ * Errors: NULL arguments, nb = 0 or block = 0 (SE_ERR_ARG), allocation. */
+se_status se_noise_profile_from_blocks(const double *raw, const double *hi, size_t nb, size_t start,
+                                       size_t block, size_t guard, double floor,
+                                       se_noise_profile *out, int *varies, se_error *err);
+/* Blocks of r [size: >= end] over [start, end) measured and passed to
+ * se_noise_profile_from_blocks. With fewer than 3 blocks *varies = 0. */
+se_status se_noise_profile_estimate(const double *r, size_t start, size_t end, size_t block,
+                                    size_t guard, double floor, se_noise_profile *out, int *varies,
+                                    se_error *err);
+/* Noise level at lag (samples, index into r): the block's level, or the larger of two
+ * neighbouring levels within guard of their common edge; lags before the range take block 0's,
+ * after it the last block's. */
+double se_noise_profile_sigma(const se_noise_profile *p, double lag);
+/* Frees the arrays and zeroes *p; NULL accepted. */
+void se_noise_profile_free(se_noise_profile *p);
+
 typedef struct se_peak {
     double lag;        /* refined fractional lag, samples (index into r) */
     double amplitude;  /* signed r value at the refined lag (band-limited), in r's units */
@@ -85,6 +148,11 @@ typedef struct se_detect_config {
     const se_acf *acf;    /* for CLEAN subtraction of each found echo's sidelobes; required, borrowed */
     const se_peak *known; /* [size: n_known] echoes already found outside the range (e.g. the direct */
     size_t n_known;       /* arrival) whose sidelobes are subtracted first; may be NULL/0 */
+    /* Optional non-stationary noise (borrowed; NULL = the one threshold above): the threshold at
+     * lag j is profile_sigmas * se_noise_profile_sigma(profile, j), and CLEAN takes the largest
+     * |residual| relative to its own lag's threshold first. threshold must still be > 0. */
+    const se_noise_profile *profile;
+    double profile_sigmas;
 } se_detect_config;
 
 /* CLEAN (J. Hogbom, A&AS 15, 1974) on r [size: n]: repeatedly take the largest |residual| in

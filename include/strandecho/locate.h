@@ -58,6 +58,13 @@ typedef struct se_locate_config {
     /* Overlapping echoes: 1 (default) refits groups of echoes closer than the main lobe by least
      * squares (fitecho.h) and splits merged ones; 0 keeps CLEAN's estimates. */
     int fit_overlaps;
+    /* Non-stationary noise: 1 measures the noise of the matched-filter output in blocks along the
+     * record (detect.h se_noise_profile) and, where it changes by a factor of two or more, holds
+     * each lag to threshold_sigma times its own level, so cfg.false_alarms holds in loud and quiet
+     * parts alike and weak echoes in the quiet parts are kept; stationary records keep the one
+     * threshold. 0 (default for now: the streaming locator does not follow it yet) keeps one
+     * threshold for the whole record. */
+    int noise_tracking;
 } se_locate_config;
 
 #define SE_STACKING_AUTO 0   /* stack when several shots are found (mean) */
@@ -111,6 +118,12 @@ typedef struct se_locate_result {
     double noise_level;      /* robust noise of the matched-filter output, reflection units */
     double threshold;        /* detection threshold, reflection units */
     double threshold_sigma;  /* threshold as a multiple of noise_level (Rice, cfg.false_alarms) */
+    int noise_varies;        /* 1 when the noise level changes along the record (block MAD sigmas
+                                differ by 2x or more, detect.h se_noise_profile): each lag is then
+                                held to threshold_sigma times the noise where it lies, and each
+                                event's snr_db and reflection_uncertainty use that level */
+    double noise_level_min;  /* with noise_varies: lowest and highest level along the record, */
+    double noise_level_max;  /* reflection units; NaN otherwise */
     double dead_zone_s;      /* round-trip time after the direct arrival searched for nothing */
     double dead_zone_m;      /* the same as a distance from the sensor */
     double resolution_s;     /* main-lobe half width of the pulse autocorrelation, s */

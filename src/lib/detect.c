@@ -20,7 +20,7 @@ static double se_mad(double *v, size_t n, double *median);
 static int se_peak_cmp(const void *a, const void *b);
 static void se_subtract(double *res, size_t lo, size_t hi, const se_acf *acf, double lag, double amp);
 static void se_cell_max(const double *res, size_t lo, size_t start, size_t end, size_t s0, size_t s1,
-                        double *cmax, size_t *carg);
+                        const se_noise_profile *prof, double k, double *cmax, size_t *carg);
 static void se_backfit(double *res, size_t lo, size_t hi, const se_acf *acf, size_t win, se_peak *list,
                        size_t found, double *lmin, double *lmax);
 
@@ -173,9 +173,10 @@ static void se_subtract(double *res, size_t lo, size_t hi, const se_acf *acf, do
 }
 
 /* Maxima of |res| in the cells covering [s0, s1): cell c is [start + c CELL, start + (c+1) CELL)
- * cut at end; res holds the residual from absolute index lo. */
+ * cut at end; res holds the residual from absolute index lo. With a noise profile, of
+ * |res| / (k sigma(j)): each lag against its own threshold (then the threshold is 1). */
 static void se_cell_max(const double *res, size_t lo, size_t start, size_t end, size_t s0, size_t s1,
-                        double *cmax, size_t *carg)
+                        const se_noise_profile *prof, double k, double *cmax, size_t *carg)
 {
     size_t c, c0 = (s0 - start) / SE_DETECT_CELL, c1 = (s1 - 1 - start) / SE_DETECT_CELL;
     for (c = c0; c <= c1; c++) {
@@ -186,6 +187,8 @@ static void se_cell_max(const double *res, size_t lo, size_t start, size_t end, 
             b = end;
         for (j = a; j < b; j++) {
             double v = fabs(res[j - lo]);
+            if (prof != NULL)
+                v /= k * se_noise_profile_sigma(prof, (double)j);
             if (v > best) {
                 best = v;
                 arg = j;
@@ -251,6 +254,8 @@ se_status se_detect(const double *r, size_t n, const se_detect_config *cfg, se_p
     size_t *carg = NULL;
     se_peak *list = NULL;
     se_status st = SE_OK;
+    const se_noise_profile *prof;
+    double thr;
 
     if (peaks != NULL)
         *peaks = NULL;
@@ -272,6 +277,8 @@ se_status se_detect(const double *r, size_t n, const se_detect_config *cfg, se_p
         if (!isfinite(cfg->known[i].lag) || !isfinite(cfg->known[i].amplitude))
             return se_fail(err, SE_ERR_ARG, "detect: known echo %zu has a non-finite lag or amplitude", i);
 
+    prof = cfg->profile;
+    thr = cfg->threshold;
     maxp = cfg->max_peaks != 0 ? cfg->max_peaks : SE_DETECT_DEFAULT_PEAKS;
     ext = se_acf_half_length(cfg->acf);
     /* refinement window scales with the pulse: where its acf has decayed to 1e-6 */
@@ -299,7 +306,17 @@ se_status se_detect(const double *r, size_t n, const se_detect_config *cfg, se_p
     for (i = 0; i < cfg->n_known; i++)
         se_subtract(res, lo, hi, cfg->acf, cfg->known[i].lag, cfg->known[i].amplitude);
     /* cells are aligned on start: cell c covers [start + c CELL, start + (c+1) CELL) */
-    se_cell_max(res, lo, cfg->start, cfg->end, cfg->start, cfg->end, cmax, carg);
+    if (prof != NULL) {
+        if (!(cfg->profile_sigmas > 0.0) || !isfinite(cfg->profile_sigmas) || prof->n_blocks == 0 ||
+            prof->sigma == NULL) {
+            st = se_fail(err, SE_ERR_ARG, "detect: noise profile without levels or with %g sigmas",
+                         cfg->profile_sigmas);
+            goto done;
+        }
+        thr = 1.0;
+    }
+    se_cell_max(res, lo, cfg->start, cfg->end, cfg->start, cfg->end, prof, cfg->profile_sigmas, cmax,
+                carg);
 
     while (found < maxp) {
         size_t c, best = 0, k, a, b;
@@ -307,7 +324,7 @@ se_status se_detect(const double *r, size_t n, const se_detect_config *cfg, se_p
         for (c = 1; c < ncell; c++)
             if (cmax[c] > cmax[best])
                 best = c;
-        if (!(cmax[best] >= cfg->threshold))
+        if (!(cmax[best] >= thr))
             break;
         k = carg[best];
         if (se_refine_peak(res, hi - lo, k - lo, win, &lag, &amp, NULL) == SE_OK) {
@@ -340,7 +357,7 @@ se_status se_detect(const double *r, size_t n, const se_detect_config *cfg, se_p
         a = lmin - (double)ext - 1.0 < (double)cfg->start ? cfg->start : (size_t)(lmin - (double)ext - 1.0);
         b = lmax + (double)ext + 2.0 > (double)cfg->end ? cfg->end : (size_t)(lmax + (double)ext + 2.0);
         if (a < b)
-            se_cell_max(res, lo, cfg->start, cfg->end, a, b, cmax, carg);
+            se_cell_max(res, lo, cfg->start, cfg->end, a, b, prof, cfg->profile_sigmas, cmax, carg);
     }
     if (found > 0) {
         qsort(list, found, sizeof *list, se_peak_cmp);

@@ -53,6 +53,10 @@ typedef struct se_locate_stage {
     double thr;                   /* threshold (r units) */
     double beta_crb;              /* RMS bandwidth of the reference, rad/sample */
     double mainlobe_half_width;   /* of the reference autocorrelation, samples */
+    /* Non-stationary noise (detect.h se_noise_profile, borrowed): NULL when the noise is
+     * stationary; else each event's SNR and amplitude uncertainty use the level at its lag, and
+     * the result reports noise_varies with the profile's extremes. */
+    const struct se_noise_profile *profile;
 } se_locate_stage;
 se_status se_locate_events(const se_locate_stage *sg, const struct se_peak *peaks, size_t npeaks,
                            struct se_locate_result *res, se_error *err);

@@ -96,6 +96,9 @@ char *se_result_json(const se_locate_result *res, const se_run_info *info, se_er
     bad |= se_jset(root, "false_alarms_per_record", se_jnum(info->false_alarms));
     bad |= se_jset(root, "confidence", se_jnum(info->confidence));
     bad |= se_jset(root, "noise_floored", json_boolean(res->noise_floored));
+    bad |= se_jset(root, "noise_varies", json_boolean(res->noise_varies));
+    bad |= se_jset(root, "noise_level_min", se_jnum(res->noise_varies ? res->noise_level_min : NAN));
+    bad |= se_jset(root, "noise_level_max", se_jnum(res->noise_varies ? res->noise_level_max : NAN));
     bad |= se_jset(root, "clipped_samples", json_integer((json_int_t)res->clipped_samples));
     bad |= se_jset(root, "direct_clipped", json_boolean(res->direct_clipped));
     bad |= se_jset(root, "shots_found", json_integer((json_int_t)res->shots_found));

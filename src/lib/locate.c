@@ -40,9 +40,11 @@ static se_status se_locate_stack(double **x, size_t *n, const double *pulse, siz
                                  se_error *err);
 static se_status se_refit_overlaps(const double *x, size_t n, const se_echo_model *mdl,
                                    const se_locate_result *res, const se_peak *direct,
-                                   double thr, double hw, se_peak **peaks,
-                                   size_t *npeaks, double **lag_sd, double **amp_sd,
-                                   se_error *err);
+                                   double thr, const se_noise_profile *prof, double kthr,
+                                   double hw, se_peak **peaks, size_t *npeaks, double **lag_sd,
+                                   double **amp_sd, se_error *err);
+static void se_keep_largest(se_peak *peaks, size_t *npeaks, double *lag_sd, double *amp_sd,
+                            size_t maxp);
 static double se_estimate_source(const se_peak *peaks, size_t npeaks, double lag0, double a0,
                                  double hw, double thr, int *found);
 static void se_apply_losses(const se_locate_config *cfg, se_locate_result *res);
@@ -301,7 +303,10 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
     int rs_unknown, rs_found = 0;
     double *lag_sd = NULL, *amp_sd = NULL;
     se_echo_model *mdl = NULL;
+    se_noise_profile prof;
+    int varies = 0;
 
+    memset(&prof, 0, sizeof prof);
     if (res == NULL)
         return se_fail(err, SE_ERR_ARG, "locate: no result record");
     memset(res, 0, sizeof *res);
@@ -484,6 +489,15 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
     }
     kthr = se_rice_k((double)(end - start), beta, cfg->false_alarms);
     thr = kthr * sigma;
+    /* Non-stationary noise (cfar.c): block MAD sigmas along r; when they differ by a factor of
+     * two or more each lag is held to k times its own level (never on noise-floored records,
+     * whose r is echoes and residue, not noise). */
+    if (cfg->noise_tracking && !res->noise_floored) {
+        st = se_noise_profile_estimate(r, start, end, se_noise_block_length(m), m,
+                                       SE_LOCATE_NOISE_FLOOR * fabs(a0), &prof, &varies, err);
+        if (st != SE_OK)
+            goto done;
+    }
     if (fabs(a0) < 2.0 * thr) {
         st = se_fail(err, SE_ERR_NOTFOUND,
                      "the outgoing pulse does not stand above the noise of the matched filter (peak "
@@ -496,7 +510,10 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
      * threshold. */
     {
         double level = 0.5 * thr / fabs(a0);
-        size_t ext = level < 1.0 ? se_acf_extent(acf, level) : 0;
+        size_t ext;
+        if (varies) /* the noise where the search starts */
+            level = fmin(level, 0.5 * kthr * se_noise_profile_sigma(&prof, (double)start) / fabs(a0));
+        ext = level < 1.0 ? se_acf_extent(acf, level) : 0;
         dead = ext > m ? ext : m;
     }
     start = k0 + dead < n ? k0 + dead : n;
@@ -517,6 +534,10 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
     dc.acf = acf;
     dc.known = &direct;
     dc.n_known = 1;
+    if (varies) {
+        dc.profile = &prof;
+        dc.profile_sigmas = kthr;
+    }
     st = se_detect(r, n, &dc, &peaks, &npeaks, err);
     if (st != SE_OK)
         goto done;
@@ -531,11 +552,13 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
         }
     }
     if (mdl != NULL && cfg->fit_overlaps && npeaks > 0) {
-        st = se_refit_overlaps(x, n, mdl, res, &direct,
-                               res->noise_floored ? INFINITY : thr, se_acf_mainlobe_half_width(acf),
+        st = se_refit_overlaps(x, n, mdl, res, &direct, res->noise_floored ? INFINITY : thr,
+                               varies ? &prof : NULL, kthr, se_acf_mainlobe_half_width(acf),
                                &peaks, &npeaks, &lag_sd, &amp_sd, err);
         if (st != SE_OK)
             goto done;
+        /* the refit may split echoes: the cap holds on what is reported */
+        se_keep_largest(peaks, &npeaks, lag_sd, amp_sd, cfg->max_events ? cfg->max_events : 64);
     }
 
     /* Source-end coefficient from the data when it was not given. */
@@ -563,6 +586,7 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
         sg.thr = thr;
         sg.beta_crb = beta_crb;
         sg.mainlobe_half_width = se_acf_mainlobe_half_width(acf);
+        sg.profile = varies ? &prof : NULL;
         st = se_locate_events(&sg, peaks, npeaks, res, err);
         if (st != SE_OK)
             goto done;
@@ -574,6 +598,7 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
                 continue;
             ev->fitted = 1;
             ev->reflection_uncertainty = amp_sd[i] / fabs(a0) / fabs(one_plus_rs);
+            /* the direct arrival's timing noise: the record's sigma (as se_locate_events) */
             st = se_event_uncertainty(map, z, lag_sd[i], sigma / (fabs(a0) * beta_crb), rate_hz, ev,
                                       err);
             if (st != SE_OK)
@@ -586,7 +611,8 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
     /* Echoes inside the dead zone: flagged, never hidden (only with the pulse channel as the
      * reference, whose shape is the direct arrival's, and on records with measured noise). */
     if (mdl != NULL && cfg->reference_kind == SE_REF_CHANNEL && !res->noise_floored) {
-        st = se_dead_zone_scan(x, n, mdl, &direct, peaks, npeaks, dead, thr, sigma,
+        double szone = varies ? se_noise_profile_sigma(&prof, (double)start) : sigma;
+        st = se_dead_zone_scan(x, n, mdl, &direct, peaks, npeaks, dead, kthr * szone, szone,
                                se_acf_mainlobe_half_width(acf), lc.source_reflection, rate_hz,
                                gsl_cdf_ugaussian_Pinv(0.5 + 0.5 * cfg->confidence), map, res, err);
         if (st != SE_OK)
@@ -603,6 +629,7 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
     }
 
 done:
+    se_noise_profile_free(&prof);
     free(peaks);
     free(lag_sd);
     free(amp_sd);
@@ -787,13 +814,15 @@ se_status se_locate_events(const se_locate_stage *sg, const se_peak *peaks, size
     for (i = 0; i < npeaks; i++) {
         se_event *ev = &res->events[i];
         double lagrel = peaks[i].lag - lag0;
-        double snr = fabs(peaks[i].amplitude) / sigma;
+        /* the noise where the echo lies (non-stationary noise), else the record's */
+        double sig = sg->profile != NULL ? se_noise_profile_sigma(sg->profile, peaks[i].lag) : sigma;
+        double snr = fabs(peaks[i].amplitude) / sig;
         double sl = 1.0 / (snr * beta_crb), sl0 = sigma / (fabs(a0) * beta_crb);
         double sd_t, sd_v, refl_d, vloc;
         ev->lag_samples = lagrel;
         ev->delay_s = lagrel / rate_hz;
         ev->reflection = peaks[i].amplitude / a0 / one_plus_rs;
-        ev->reflection_uncertainty = sigma / fabs(a0) / fabs(one_plus_rs);
+        ev->reflection_uncertainty = sig / fabs(a0) / fabs(one_plus_rs);
         ev->polarity = ev->reflection >= 0.0 ? 1 : -1;
         refl_d = ev->reflection * (double)se_quantity_sign(cfg->quantity);
         ev->impedance_increase = refl_d < 0.0;
@@ -833,6 +862,12 @@ se_status se_locate_events(const se_locate_stage *sg, const se_peak *peaks, size
     res->noise_level = sigma / fabs(a0) / fabs(one_plus_rs);
     res->threshold = thr / fabs(a0) / fabs(one_plus_rs);
     res->threshold_sigma = kthr;
+    res->noise_varies = sg->profile != NULL;
+    res->noise_level_min = res->noise_level_max = NAN;
+    if (sg->profile != NULL) {
+        res->noise_level_min = sg->profile->min_sigma / fabs(a0) / fabs(one_plus_rs);
+        res->noise_level_max = sg->profile->max_sigma / fabs(a0) / fabs(one_plus_rs);
+    }
     res->dead_zone_s = (double)dead / rate_hz;
     st = se_distmap_distance(map, res->dead_zone_s, &res->dead_zone_m, err);
     if (st == SE_OK)
@@ -935,9 +970,9 @@ static se_status se_locate_stack(double **x, size_t *n, const double *pulse, siz
  * NaN where CLEAN's estimate was kept. */
 static se_status se_refit_overlaps(const double *x, size_t n, const se_echo_model *mdl,
                                    const se_locate_result *res, const se_peak *direct,
-                                   double split_thr, double hw, se_peak **peaks,
-                                   size_t *npeaks, double **lag_sd, double **amp_sd,
-                                   se_error *err)
+                                   double thr_all, const se_noise_profile *prof, double kthr,
+                                   double hw, se_peak **peaks, size_t *npeaks, double **lag_sd,
+                                   double **amp_sd, se_error *err)
 {
     size_t m = se_echo_model_length(mdl), np = *npeaks, g0, g1, i, j, nout = 0, cap;
     se_peak *in = *peaks, *out = NULL;
@@ -960,10 +995,15 @@ static se_status se_refit_overlaps(const double *x, size_t n, const se_echo_mode
         int close = 0, keep = 1;
         se_echo *fit = NULL;
         se_fitecho_config fc;
+        double split_thr = thr_all;
         for (g1 = g0 + 1; g1 < np && in[g1].lag - in[g1 - 1].lag < (double)m; g1++)
             if (in[g1].lag - in[g1 - 1].lag < 2.0 * hw)
                 close = 1;
         ng = g1 - g0;
+        /* with non-stationary noise the group's own threshold (the larger of its two ends) */
+        if (prof != NULL && isfinite(thr_all))
+            split_thr = kthr * fmax(se_noise_profile_sigma(prof, in[g0].lag),
+                                    se_noise_profile_sigma(prof, in[g1 - 1].lag));
         /* a lone peak is tried for a split only when strong (10 thresholds): near the threshold
          * the noise, not a second echo, decides */
         if (ng > 8 || (ng == 1 && !(fabs(in[g0].amplitude) > 10.0 * split_thr)))
@@ -1056,6 +1096,45 @@ fail:
     free(asd);
     free(w);
     return st;
+}
+
+/* The maxp largest |amplitude| of peaks [size: *npeaks] (with their lag_sd, amp_sd, which may be
+ * NULL), kept in lag order; ties keep the earlier peak. */
+static void se_keep_largest(se_peak *peaks, size_t *npeaks, double *lag_sd, double *amp_sd,
+                            size_t maxp)
+{
+    size_t np = *npeaks, i, j, out = 0;
+    double cut;
+    size_t above = 0, at_cut;
+    if (np <= maxp || maxp == 0)
+        return;
+    /* the maxp-th largest magnitude by selection on a copy would need memory; n is small (at most
+     * max_peaks + 16 after the refit), so count by pairs */
+    cut = INFINITY;
+    for (i = 0; i < np; i++) {
+        size_t larger = 0;
+        for (j = 0; j < np; j++)
+            larger += fabs(peaks[j].amplitude) > fabs(peaks[i].amplitude);
+        if (larger < maxp && fabs(peaks[i].amplitude) < cut)
+            cut = fabs(peaks[i].amplitude);
+    }
+    for (i = 0; i < np; i++)
+        above += fabs(peaks[i].amplitude) > cut;
+    at_cut = maxp - above; /* how many of the magnitude equal to cut are kept */
+    for (i = 0; i < np; i++) {
+        double a = fabs(peaks[i].amplitude);
+        if (a < cut || (a == cut && at_cut == 0))
+            continue;
+        if (a == cut)
+            at_cut--;
+        peaks[out] = peaks[i];
+        if (lag_sd != NULL)
+            lag_sd[out] = lag_sd[i];
+        if (amp_sd != NULL)
+            amp_sd[out] = amp_sd[i];
+        out++;
+    }
+    *npeaks = out;
 }
 
 /* Source-end coefficient from the data: the strongest peak i (amplitude A_i relative to the

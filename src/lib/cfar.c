@@ -1,0 +1,209 @@
+/* strandecho: sliding-window robust noise profile of the matched-filter output, for thresholds
+ * that follow non-stationary noise (see detect.h). Block MAD sigmas (Rousseeuw & Croux, JASA 88,
+ * 1993), grouped into runs of one level so that each level is measured on many lags; a change
+ * of level keeps the larger level on both sides of it, so the false-alarm rate holds there. */
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "internal.h"
+#include "strandecho/detect.h"
+
+#define SE_NOISE_BLOCK_MIN 4096
+#define SE_NOISE_BLOCK_PER_SAMPLE 256
+#define SE_NOISE_RUN_REACH 4 /* blocks each side averaged within a run */
+#define SE_NOISE_SUBBLOCKS 8 /* parts of a block whose MADs show a change inside it */
+
+static int se_same_level(double a, double b);
+
+/* Two block sigmas of one level: within SE_NOISE_RUN_RATIO of each other. */
+static int se_same_level(double a, double b)
+{
+    double hi = fmax(a, b), lo = fmin(a, b);
+    return lo > 0.0 && hi < SE_NOISE_RUN_RATIO * lo;
+}
+
+size_t se_noise_block_length(size_t m)
+{
+    size_t l = SE_NOISE_BLOCK_PER_SAMPLE;
+    if (m > SIZE_MAX / l)
+        return SIZE_MAX;
+    l *= m;
+    return l < SE_NOISE_BLOCK_MIN ? SE_NOISE_BLOCK_MIN : l;
+}
+
+size_t se_noise_block_count(size_t start, size_t end, size_t block)
+{
+    if (block == 0 || end <= start)
+        return 0;
+    return (end - start) / block;
+}
+
+se_status se_noise_block_sigma(const double *r_block, size_t len, double *sigma, double *hi,
+                               se_error *err)
+{
+    se_noise nz;
+    se_status st;
+    size_t q, part = len / SE_NOISE_SUBBLOCKS;
+    if (sigma == NULL || hi == NULL)
+        return se_fail(err, SE_ERR_ARG, "noise block: NULL result");
+    st = se_noise_mad(r_block, 0, len, SE_NOISE_BLOCK_SAMPLES, &nz, err);
+    if (st != SE_OK)
+        return st;
+    *sigma = nz.sigma;
+    *hi = nz.sigma;
+    /* the MAD ignores a loud minority of the block: its parts show it */
+    for (q = 0; part >= 16 && q < SE_NOISE_SUBBLOCKS; q++) {
+        size_t a = q * part, e = q + 1 == SE_NOISE_SUBBLOCKS ? len : a + part;
+        st = se_noise_mad(r_block, a, e, SE_NOISE_BLOCK_SAMPLES, &nz, err);
+        if (st != SE_OK)
+            return st;
+        if (nz.sigma > *hi)
+            *hi = nz.sigma;
+    }
+    return SE_OK;
+}
+
+se_status se_noise_profile_from_blocks(const double *raw, const double *hi, size_t nb, size_t start,
+                                       size_t block, size_t guard, double floor,
+                                       se_noise_profile *out, int *varies, se_error *err)
+{
+    size_t b, r0, r1;
+    double mn = INFINITY, mx = 0.0;
+    double *lv, *rw;
+    if (out == NULL || varies == NULL || raw == NULL || hi == NULL)
+        return se_fail(err, SE_ERR_ARG, "noise profile: NULL %s",
+                       raw == NULL || hi == NULL ? "block sigmas" : "result");
+    memset(out, 0, sizeof *out);
+    *varies = 0;
+    if (nb == 0 || block == 0)
+        return se_fail(err, SE_ERR_ARG, "noise profile: %zu blocks of %zu lags", nb, block);
+    if (!(floor >= 0.0))
+        floor = 0.0;
+    for (b = 0; b < nb; b++) {
+        double s = raw[b] > floor ? raw[b] : floor;
+        if (!isfinite(s) || !isfinite(hi[b]))
+            return se_fail(err, SE_ERR_DATA, "noise profile: block %zu sigma is not finite", b);
+        mn = fmin(mn, s);
+        mx = fmax(mx, fmax(s, hi[b]));
+    }
+    if (nb < 3 || !(mn > 0.0) || mx < SE_NOISE_VARY_RATIO * mn)
+        return SE_OK; /* stationary: the global threshold holds */
+    lv = se_calloc(nb, sizeof *lv, "noise profile", err);
+    rw = se_calloc(nb, sizeof *rw, "noise profile", err);
+    if (lv == NULL || rw == NULL) {
+        free(lv);
+        free(rw);
+        return SE_ERR_NOMEM;
+    }
+    for (b = 0; b < nb; b++)
+        rw[b] = raw[b] > floor ? raw[b] : floor;
+    for (r0 = 0; r0 < nb; r0 = r1) {
+        for (r1 = r0 + 1; r1 < nb && se_same_level(rw[r1 - 1], rw[r1]); r1++) {
+        }
+        if (r1 - r0 == 1 || rw[r0] * SE_NOISE_RUN_RATIO < hi[r0]) {
+            /* alone: a change of level inside it (or an outlier): the larger side */
+            double s = rw[r0];
+            if (r0 > 0)
+                s = fmax(s, rw[r0 - 1]);
+            if (r0 + 1 < nb)
+                s = fmax(s, rw[r0 + 1]);
+            lv[r0] = fmax(s, hi[r0]);
+            r1 = r0 + 1;
+            continue;
+        }
+        /* a run ends before a block whose parts are louder than the block: a change inside it */
+        for (b = r0 + 1; b < r1; b++)
+            if (rw[b] * SE_NOISE_RUN_RATIO < hi[b]) {
+                r1 = b;
+                break;
+            }
+        for (b = r0; b < r1; b++) {
+            size_t a = b > r0 + SE_NOISE_RUN_REACH ? b - SE_NOISE_RUN_REACH : r0;
+            size_t e = b + SE_NOISE_RUN_REACH + 1 < r1 ? b + SE_NOISE_RUN_REACH + 1 : r1, q;
+            double sum = 0.0;
+            for (q = a; q < e; q++)
+                sum += rw[q];
+            lv[b] = sum / (double)(e - a);
+        }
+    }
+    out->start = start;
+    out->block = block;
+    out->n_blocks = nb;
+    out->guard = guard;
+    out->sigma = lv;
+    out->raw = rw;
+    out->min_sigma = INFINITY;
+    out->max_sigma = 0.0;
+    for (b = 0; b < nb; b++) {
+        out->min_sigma = fmin(out->min_sigma, lv[b]);
+        out->max_sigma = fmax(out->max_sigma, lv[b]);
+    }
+    *varies = 1;
+    return SE_OK;
+}
+
+se_status se_noise_profile_estimate(const double *r, size_t start, size_t end, size_t block,
+                                    size_t guard, double floor, se_noise_profile *out, int *varies,
+                                    se_error *err)
+{
+    size_t nb = se_noise_block_count(start, end, block), b;
+    double *raw, *hi;
+    se_status st;
+    if (out == NULL || varies == NULL || r == NULL)
+        return se_fail(err, SE_ERR_ARG, "noise profile: NULL %s", r == NULL ? "data" : "result");
+    memset(out, 0, sizeof *out);
+    *varies = 0;
+    if (nb < 3)
+        return SE_OK;
+    raw = se_calloc(nb, sizeof *raw, "noise blocks", err);
+    hi = se_calloc(nb, sizeof *hi, "noise blocks", err);
+    if (raw == NULL || hi == NULL) {
+        free(raw);
+        free(hi);
+        return SE_ERR_NOMEM;
+    }
+    for (b = 0; b < nb; b++) {
+        size_t a = start + b * block, e = b + 1 == nb ? end : a + block;
+        st = se_noise_block_sigma(r + a, e - a, &raw[b], &hi[b], err);
+        if (st != SE_OK) {
+            free(raw);
+            free(hi);
+            return st;
+        }
+    }
+    st = se_noise_profile_from_blocks(raw, hi, nb, start, block, guard, floor, out, varies, err);
+    free(raw);
+    free(hi);
+    return st;
+}
+
+double se_noise_profile_sigma(const se_noise_profile *p, double lag)
+{
+    size_t b, a;
+    double s, off;
+    if (p == NULL || p->n_blocks == 0 || p->sigma == NULL)
+        return NAN;
+    if (!(lag >= (double)p->start))
+        return p->sigma[0];
+    off = lag - (double)p->start;
+    b = off >= (double)(p->n_blocks * p->block) ? p->n_blocks - 1 : (size_t)(off / (double)p->block);
+    if (b >= p->n_blocks)
+        b = p->n_blocks - 1;
+    s = p->sigma[b];
+    a = p->start + b * p->block;
+    if (b > 0 && lag - (double)a < (double)p->guard)
+        s = fmax(s, p->sigma[b - 1]);
+    if (b + 1 < p->n_blocks && (double)(a + p->block) - lag <= (double)p->guard)
+        s = fmax(s, p->sigma[b + 1]);
+    return s;
+}
+
+void se_noise_profile_free(se_noise_profile *p)
+{
+    if (p == NULL)
+        return;
+    free(p->sigma);
+    free(p->raw);
+    memset(p, 0, sizeof *p);
+}
