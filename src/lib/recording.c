@@ -567,6 +567,9 @@ static se_status se_write_sound(se_output *out, const char *path, const se_write
         free(dbuf);
         return se_fail(err, SE_ERR_IO, "%s: cannot write %s: %s", path, wf->name, msg);
     }
+    /* No PEAK chunk: it carries the wall-clock time of writing, and outputs must be
+     * byte-identical for the same inputs. */
+    sf_command(snd, SFC_SET_ADD_PEAK_CHUNK, NULL, SF_FALSE);
     while (done < frames) {
         size_t n = frames - done < block ? frames - done : block, k;
         sf_count_t wrote;
