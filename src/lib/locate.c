@@ -46,7 +46,8 @@ static se_status se_refit_overlaps(const double *x, size_t n, const se_echo_mode
 static void se_keep_largest(se_peak *peaks, size_t *npeaks, double *lag_sd, double *amp_sd,
                             size_t maxp);
 static double se_estimate_source(const se_peak *peaks, size_t npeaks, double lag0, double a0,
-                                 double hw, double thr, int *found);
+                                 double hw, double sigma, const se_noise_profile *prof,
+                                 int *found);
 static void se_apply_losses(const se_locate_config *cfg, se_locate_result *res);
 static se_status se_dead_zone_scan(const double *x, size_t n, const se_echo_model *mdl,
                                    const se_peak *direct, const se_peak *peaks, size_t npeaks,
@@ -69,6 +70,7 @@ void se_locate_config_init(se_locate_config *cfg)
     cfg->stacking = SE_STACKING_AUTO;
     cfg->attenuation_db_per_m = NAN;
     cfg->fit_overlaps = 1;
+    cfg->noise_tracking = 1;
 }
 
 void se_locate_result_free(se_locate_result *res)
@@ -564,7 +566,8 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
     /* Source-end coefficient from the data when it was not given. */
     if (rs_unknown) {
         lc.source_reflection = se_estimate_source(peaks, npeaks, lag0, a0,
-                                                  se_acf_mainlobe_half_width(acf), thr, &rs_found);
+                                                  se_acf_mainlobe_half_width(acf), sigma,
+                                                  varies ? &prof : NULL, &rs_found);
         one_plus_rs = 1.0 + lc.source_reflection;
     }
 
@@ -1137,38 +1140,183 @@ static void se_keep_largest(se_peak *peaks, size_t *npeaks, double *lag_sd, doub
     *npeaks = out;
 }
 
-/* Source-end coefficient from the data: the strongest peak i (amplitude A_i relative to the
- * outgoing pulse, r_s = 0 assumed) and a peak at twice its delay after the direct arrival:
- * A_i = (1 + r_s) r_i g, A_2 = (1 + r_s) r_s r_i^2 g^2, so q = A_2 / A_i^2 = r_s / (1 + r_s)
- * whatever the loss g, and r_s = q / (1 - q). *found = 0 (and 0 returned) when there is no such
- * peak above the threshold or the estimate falls outside [-1, 1]. */
+/* Source-end coefficient from the data, jointly over every first-order source-end multiple of the
+ * strong primaries (REFERENCE.md 2, Backus 1959). In seen amplitudes s = A / A_0 (relative to
+ * the outgoing pulse, r_s = 0 assumed) a primary is s_i = (1 + r_s) a_i and the multiple at
+ * t_i + t_j is (1 + r_s) r_s a_i a_j m_ij (m_ij = 2 for i != j: two paths), so
+ *   s_ij = q m_ij s_i s_j,   q = r_s / (1 + r_s),   r_s = q / (1 - q),
+ * whatever the losses and transmissions (they are inside the a's). q is the weighted least
+ * squares slope sum w x y / sum w x^2 (x = m s_i s_j, y = s_ij, w = 1 / sigma^2 at t_i + t_j:
+ * SNR-weighted), iterated to convergence because which peaks are primaries (timing, and "past a
+ * full reflection" |s| / (1 + r_s) > 0.9) and the size of the arrivals that may overlap a
+ * candidate depend on r_s. The strong peaks (|s| >= max(0.1 max |s|, 10 sigma)) are classified in
+ * delay order by timing alone: a multiple falls at a pair sum of primaries, at a peg-leg
+ * t_k + t_j - t_i (i < j primaries, k any earlier strong peak at or beyond j), at t_k + t_j (k an
+ * earlier multiple, j a primary), or past a full reflection; the rest are primaries (at most
+ * SE_RS_MAX_P). A candidate is dropped when other predicted arrivals within half the main-lobe
+ * half width add up to more than a fifth of its own prediction (primaries, other pair sums,
+ * peg-legs, t_k + t_j and second-order sums t_i + t_j + t_k), and then the least consistent one
+ * at a time while its residual exceeds 3 sigma + 25 % of its prediction (sign and size). *found
+ * = 0 and 0 returned when no candidate is left, q is not 3 standard errors from 0, or r_s falls
+ * outside [-1, 1] by more than 3 standard errors (inside that, clamped to the bound). */
+#define SE_RS_MAX_P 16
+#define SE_RS_MAX_STRONG 256
+#define SE_RS_MAX_CAND (SE_RS_MAX_P * (SE_RS_MAX_P + 1) / 2)
 static double se_estimate_source(const se_peak *peaks, size_t npeaks, double lag0, double a0,
-                                 double hw, double thr, int *found)
+                                 double hw, double sigma, const se_noise_profile *prof,
+                                 int *found)
 {
-    size_t i, best = SIZE_MAX;
-    double ai, t2, tol, q, rs;
+    size_t strong[SE_RS_MAX_STRONG], pr[SE_RS_MAX_P], ns = 0, np, i, j, k, it;
+    int role[SE_RS_MAX_STRONG];
+    double cx[SE_RS_MAX_CAND], cy[SE_RS_MAX_CAND], cw[SE_RS_MAX_CAND], cs[SE_RS_MAX_CAND];
+    double smax = 0.0, sn = sigma / fabs(a0), pmin, tol = fmax(2.0, 0.5 * hw), win = 0.5 * hw;
+    double rs = 0.0, q_use = 0.5; /* no estimate yet: the largest q (r_s = 1) sizes the overlaps */
     *found = 0;
-    for (i = 0; i < npeaks; i++)
-        if (best == SIZE_MAX || fabs(peaks[i].amplitude) > fabs(peaks[best].amplitude))
-            best = i;
-    if (best == SIZE_MAX)
+    if (!(fabs(a0) > 0.0) || !(sn > 0.0))
         return 0.0;
-    ai = peaks[best].amplitude / a0;
-    t2 = lag0 + 2.0 * (peaks[best].lag - lag0);
-    tol = fmax(2.0, 0.5 * hw);
-    for (i = best + 1; i < npeaks; i++) {
-        if (fabs(peaks[i].lag - t2) > tol || fabs(peaks[i].amplitude) < thr)
-            continue;
-        q = (peaks[i].amplitude / a0) / (ai * ai);
-        if (!(q < 0.5) || q <= -1e9) /* r_s <= 1 needs q <= 1/2 */
-            continue;
-        rs = q / (1.0 - q);
-        if (rs >= -1.0 && rs <= 1.0) {
-            *found = 1;
-            return rs;
+    for (i = 0; i < npeaks; i++)
+        if (peaks[i].lag > lag0 && fabs(peaks[i].amplitude / a0) > smax)
+            smax = fabs(peaks[i].amplitude / a0);
+    pmin = fmax(0.1 * smax, 10.0 * sn);
+    for (i = 0; i < npeaks && ns < SE_RS_MAX_STRONG; i++) /* in lag order (insertion) */
+        if (peaks[i].lag > lag0 && fabs(peaks[i].amplitude / a0) >= pmin) {
+            for (j = ns; j > 0 && peaks[strong[j - 1]].lag > peaks[i].lag; j--)
+                strong[j] = strong[j - 1];
+            strong[j] = i;
+            ns++;
         }
+    for (it = 0; it < 30; it++) {
+        double sxy = 0.0, sxx = 0.0, q, sq, rs_new;
+        size_t nc = 0, c, used;
+        int full = 0;
+#define SE_T(p) (peaks[p].lag - lag0)
+#define SE_S(p) (peaks[p].amplitude / a0)
+        /* primaries and multiples of the strong peaks, by timing */
+        np = 0;
+        for (k = 0; k < ns; k++) {
+            double t = SE_T(strong[k]);
+            int expl = full;
+            for (i = 0; i < np && !expl; i++)
+                for (j = i; j < np && !expl; j++) {
+                    size_t k2;
+                    if (fabs(t - SE_T(pr[i]) - SE_T(pr[j])) < tol)
+                        expl = 1;
+                    for (k2 = 0; k2 < k && !expl && j > i; k2++)
+                        if (SE_T(strong[k2]) > SE_T(pr[j]) - tol &&
+                            fabs(t - (SE_T(strong[k2]) + SE_T(pr[j]) - SE_T(pr[i]))) < tol)
+                            expl = 1;
+                }
+            for (i = 0; i < k && !expl; i++)
+                for (j = 0; j < np && !expl && role[i] == 2; j++)
+                    if (fabs(t - SE_T(strong[i]) - SE_T(pr[j])) < tol)
+                        expl = 1;
+            role[k] = expl || np == SE_RS_MAX_P ? 2 : 1;
+            if (role[k] == 1) {
+                pr[np++] = strong[k];
+                if (fabs(SE_S(strong[k])) / (1.0 + rs) > 0.9)
+                    full = 1;
+            }
+        }
+        /* candidates: every pair of primaries with a peak at t_i + t_j, not overlapped */
+        for (i = 0; i < np; i++)
+            for (j = i; j < np; j++) {
+                double tt = SE_T(pr[i]) + SE_T(pr[j]), x, pred, over = 0.0, best = tol, y = 0.0;
+                size_t a, b, d, hit = SIZE_MAX;
+                x = (i == j ? 1.0 : 2.0) * SE_S(pr[i]) * SE_S(pr[j]);
+                pred = fabs(q_use * x);
+                for (a = 0; a < npeaks; a++)
+                    if (fabs(SE_T(a) - tt) < best) {
+                        best = fabs(SE_T(a) - tt);
+                        hit = a;
+                    }
+                if (hit == SIZE_MAX)
+                    continue;
+                y = SE_S(hit);
+                for (a = 0; a < np; a++) {
+                    double ai = SE_S(pr[a]) / (1.0 + rs);
+                    if (fabs(SE_T(pr[a]) - tt) < win)
+                        over += fabs(SE_S(pr[a]));
+                    for (b = a; b < np; b++) {
+                        double tab = SE_T(pr[a]) + SE_T(pr[b]);
+                        if ((a != i || b != j) && fabs(tab - tt) < win)
+                            over += fabs(q_use * (a == b ? 1.0 : 2.0) * SE_S(pr[a]) * SE_S(pr[b]));
+                        for (d = b; d < np; d++) /* second order: 1, 3 or 6 orderings */
+                            if (fabs(tab + SE_T(pr[d]) - tt) < win)
+                                over += q_use * q_use * fabs(SE_S(pr[a]) * SE_S(pr[b]) * SE_S(pr[d])) *
+                                        (a == b && b == d ? 1.0 : (a == b || b == d ? 3.0 : 6.0));
+                        for (d = 0; d < ns && b > a && fabs(ai) < 1.0; d++) /* peg-legs */
+                            if (SE_T(strong[d]) > SE_T(pr[b]) - tol &&
+                                fabs(SE_T(strong[d]) + SE_T(pr[b]) - SE_T(pr[a]) - tt) < win)
+                                over += fabs(SE_S(strong[d]) * ai * SE_S(pr[b]) / (1.0 + rs)) /
+                                        (1.0 - ai * ai);
+                    }
+                    for (d = 0; d < ns; d++) /* an earlier multiple and one more bounce */
+                        if (role[d] == 2 && strong[d] != hit &&
+                            fabs(SE_T(strong[d]) + SE_T(pr[a]) - tt) < win)
+                            over += fabs(q_use * SE_S(strong[d]) * SE_S(pr[a]));
+                }
+                if (over > 0.2 * pred || nc == SE_RS_MAX_CAND)
+                    continue;
+                cs[nc] = prof != NULL ? se_noise_profile_sigma(prof, lag0 + tt) / fabs(a0) : sn;
+                if (!(cs[nc] > 0.0))
+                    cs[nc] = sn;
+                cx[nc] = x;
+                cy[nc] = y;
+                cw[nc] = 1.0 / (cs[nc] * cs[nc]);
+                nc++;
+            }
+#undef SE_T
+#undef SE_S
+        /* weighted least squares; the least consistent candidate dropped while one is off */
+        used = nc;
+        for (;;) {
+            double worst = 1.0;
+            size_t wi = SIZE_MAX;
+            sxy = sxx = 0.0;
+            for (c = 0; c < nc; c++)
+                if (cw[c] > 0.0) {
+                    sxy += cw[c] * cx[c] * cy[c];
+                    sxx += cw[c] * cx[c] * cx[c];
+                }
+            if (used == 0 || !(sxx > 0.0))
+                return 0.0;
+            q = sxy / sxx;
+            for (c = 0; c < nc; c++) {
+                double z;
+                if (!(cw[c] > 0.0))
+                    continue;
+                z = fabs(cy[c] - q * cx[c]) / (3.0 * cs[c] + 0.25 * fabs(q * cx[c]));
+                if (z > worst) {
+                    worst = z;
+                    wi = c;
+                }
+            }
+            if (wi == SIZE_MAX)
+                break;
+            cw[wi] = 0.0;
+            used--;
+        }
+        sq = 1.0 / sqrt(sxx);
+        if (!(fabs(q) >= 3.0 * sq))
+            return 0.0;
+        if (q >= 1.0) /* r_s = q / (1 - q) has no finite value */
+            return 0.0;
+        rs_new = q / (1.0 - q);
+        if (rs_new > 1.0 || rs_new < -1.0) { /* within 3 standard errors of the bound: clamped */
+            double qb = rs_new > 1.0 ? 0.5 : -INFINITY;
+            if (rs_new > 1.0 ? q - 3.0 * sq > qb : 1.0 / (1.0 - q) - 1.0 < -1.0 - 3.0 * sq / ((1.0 - q) * (1.0 - q)))
+                return 0.0;
+            rs_new = rs_new > 1.0 ? 1.0 : -1.0;
+        }
+        q_use = q;
+        if (it > 0 && fabs(rs_new - rs) < 1e-6) {
+            rs = rs_new;
+            break;
+        }
+        rs = rs_new;
     }
-    return 0.0;
+    *found = 1;
+    return rs;
 }
 
 /* Losses: the attenuation given, or estimated from the farthest matched expected event with a
