@@ -62,7 +62,7 @@ typedef struct se_locate_config {
      * record (detect.h se_noise_profile) and, where it changes by a factor of two or more, holds
      * each lag to threshold_sigma times its own level, so cfg.false_alarms holds in loud and quiet
      * parts alike and weak echoes in the quiet parts are kept; stationary records keep the one
-     * threshold. 0 (default for now: the streaming locator does not follow it yet) keeps one
+     * threshold (default; se_locate_stream follows it with the same results). 0 keeps one
      * threshold for the whole record. */
     int noise_tracking;
 } se_locate_config;

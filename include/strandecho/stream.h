@@ -8,6 +8,13 @@
  * from the file (bit for bit the pass's values), CLEAN (se_detect) runs on it, and the events are
  * classified by the locator's own event stage.
  *
+ * Non-stationary noise (cfg->noise_tracking, detect.h se_noise_profile): the pass also measures
+ * se_locate's noise blocks (the lags of one block at a time, then its two MAD sigmas). When they
+ * vary, one more pass scans each lag against 0.8 of its own threshold (a single pre-threshold at
+ * the quiet level would gather a loud part into one cluster), and CLEAN on each window uses the
+ * profile seen from the window (its start moved back by less than block/32 lags so the profile's
+ * parts line up).
+ *
  * Same results as se_locate on the whole record: the same events, with lags bit for bit equal when
  * both plan with FFTW_ESTIMATE (the default here), within ~1e-12 sample otherwise; see
  * se_locate_stream for the two cases where the answer can differ.
@@ -16,7 +23,8 @@
  * the direct arrival, 16 bytes per sampled noise lag (2 MiB at the default 2^16; twice during the
  * final median), 24 bytes per candidate cluster, and one recomputed window (about 5 pulse lengths
  * plus a block) at a time: about 22 MiB of peak resident memory at M = 4096 for 2^24 and for
- * 2^30 samples alike (docs/performance.md). */
+ * 2^30 samples alike (docs/performance.md). With noise tracking, 8 bytes per lag of one noise
+ * block (under 2 max(4096, 256 M) lags: up to 16 MiB more at M = 4096) and 16 per block. */
 #ifndef SE_STREAM_H
 #define SE_STREAM_H
 
@@ -57,7 +65,8 @@ typedef struct se_stream_info {
     double rate;              /* sample rate, Hz */
     char format[48];          /* libsndfile's format name, e.g. "WAV float32" -> "WAV (Microsoft)" */
     unsigned passes;          /* correlation passes over the file (1; 2 without a known time base;
-                                 one more when the pre-threshold proved too high) */
+                                 one more when the pre-threshold proved too high, and one more
+                                 when the noise varies along the record, with noise tracking) */
     size_t windows;           /* candidate windows recomputed (those reaching the threshold) */
     size_t window_samples;    /* r samples recomputed in them */
     se_xcorr_plan plan;       /* how the FFT plans were made */

@@ -56,6 +56,7 @@ static const char se_locate_usage[] =
     "  --stacking auto|off|robust  repeated shots (taps) in one recording are found (on the pulse\n"
     "                           channel when given), aligned and averaged (robust: trimmed mean);\n"
     "                           default auto\n"
+    "  --noise-tracking on|off  thresholds follow noise that changes along the record (default on)\n"
     "  --confidence P           coverage of the distance intervals (default 0.95)\n"
     "  --max-events N           at most N events (default 64)\n"
     "Output:\n"
@@ -235,6 +236,14 @@ int se_cmd_locate(int argc, char **argv)
             if (end == v || *end != '\0' || !(fa > 0.0 && fa <= 1000.0))
                 return se_cli_fail(SE_EXIT_USAGE,
                                    "--false-alarms: '%s' is not a number in (0, 1000]", v);
+            continue;
+        }
+        if ((got = se_cli_value(&c, "--noise-tracking", &v)) != 0) {
+            if (got < 0)
+                return SE_EXIT_USAGE;
+            if (strcmp(v, "on") != 0 && strcmp(v, "off") != 0)
+                return se_cli_fail(SE_EXIT_USAGE, "--noise-tracking: '%s' is not on or off", v);
+            cfg.noise_tracking = strcmp(v, "on") == 0;
             continue;
         }
         if ((got = se_cli_value(&c, "--confidence", &v)) != 0) {

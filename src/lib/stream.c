@@ -87,6 +87,15 @@ typedef struct se_sl {
     double run_v, first_v;
     size_t run_start, seen;
     int varies;
+    /* non-stationary noise (cfar.c): block b of blen lags covers [start + b blen, ...), the last
+     * to end; one block's r at a time in bbuf, then its two MAD sigmas in braw/bhi */
+    int track;
+    size_t blen, nb, bi, bfill;
+    double *bbuf, *braw, *bhi;
+    /* the profile pass: candidates against SE_STREAM_PRE_FRACTION of each lag's own threshold
+     * pk sigma(lag), clusters keeping their largest |r| / (pk sigma(lag)) */
+    const se_noise_profile *pprof;
+    double pk;
 } se_sl;
 
 static se_status se_sl_cand(se_sl *s, size_t i, double av, se_error *err);
@@ -113,6 +122,13 @@ static se_status se_pass(se_sl *s, SNDFILE *snd, const char *path, unsigned nch,
 static void se_sl_reset(se_sl *s);
 static int se_peak_by_size(const void *a, const void *b);
 static int se_peak_by_lag(const void *a, const void *b);
+static se_status se_sl_noise_blocks(se_sl *s, size_t i0, const double *v, size_t lo, size_t hi,
+                                    se_error *err);
+static size_t se_prof_block(const se_noise_profile *p, size_t lag);
+static void se_sl_scan_profile(se_sl *s, size_t i0, const double *v, size_t a, size_t b,
+                               se_status *st, se_error *err);
+static se_status se_window_profile(const se_noise_profile *p, size_t a, size_t e, size_t *a_out,
+                                   se_noise_profile *out, se_error *err);
 
 static int se_peak_by_size(const void *a, const void *b)
 {
@@ -341,6 +357,10 @@ static void se_sl_scan(se_sl *s, size_t i0, const double *v, size_t a, size_t b,
 {
     const double pre = s->pre, *p = v + (a - i0);
     size_t n = b - a, j, k;
+    if (s->pprof != NULL) {
+        se_sl_scan_profile(s, i0, v, a, b, st, err);
+        return;
+    }
     for (j = 0; j < n && *st == SE_OK; j += 64) {
         size_t len = n - j < 64 ? n - j : 64, hits = 0;
         for (k = 0; k < len; k++)
@@ -384,6 +404,8 @@ static se_status se_sl_block(se_sl *s, size_t i0, const double *v, size_t n, se_
     }
     lo = i0 > s->start ? i0 : s->start;
     hi = i1 < s->end ? i1 : s->end;
+    if (s->nb > 0 && (st = se_sl_noise_blocks(s, i0, v, lo, hi, err)) != SE_OK)
+        return st;
     while (lo < hi && st == SE_OK) {
         if (s->pre_fixed == 0.0 && s->pcount < s->plen) {
             size_t take = hi - lo < s->plen - s->pcount ? hi - lo : s->plen - s->pcount;
@@ -434,6 +456,20 @@ static se_status se_sl_know(se_sl *s, size_t c0, size_t c1, const double *chunk,
     s->q = malloc(2 * s->used * sizeof *s->q);
     if (s->q == NULL)
         return se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate the noise sample (%zu lags)", s->used);
+    /* se_locate's noise profile: blocks from start = k0 + m (the profile pass needs none) */
+    s->blen = se_noise_block_length(s->m);
+    s->nb = s->track && s->pprof == NULL ? se_noise_block_count(s->start, s->end, s->blen) : 0;
+    if (s->nb < 3) {
+        s->nb = 0;
+    } else {
+        size_t last = s->end - s->start - (s->nb - 1) * s->blen; /* the longest block */
+        s->bbuf = malloc(last * sizeof *s->bbuf);
+        s->braw = malloc(s->nb * sizeof *s->braw);
+        s->bhi = malloc(s->nb * sizeof *s->bhi);
+        if (s->bbuf == NULL || s->braw == NULL || s->bhi == NULL)
+            return se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate a noise block of %zu lags",
+                           last);
+    }
     /* CLEAN's floor: sigma >= 1e-4 |a0| and k >= 3, so |r| below 3e-4 |a0| is never detected;
      * half that for the refined a0 against |r[k0]|. */
     if (s->pre_fixed > 0.0)
@@ -516,6 +552,119 @@ static void se_sl_reset(se_sl *s)
     memset(&s->cmin, 0, sizeof s->cmin);
     s->seen = 0;
     s->varies = 0;
+    free(s->bbuf);
+    free(s->braw);
+    free(s->bhi);
+    s->bbuf = s->braw = s->bhi = NULL;
+    s->nb = s->bi = s->bfill = 0;
+}
+
+/* Lags [lo, hi) of r (values v[i - i0]), in order, into the noise blocks: each block's sigmas
+ * (se_noise_block_sigma) on exactly its own lags, as se_noise_profile_estimate takes them. */
+static se_status se_sl_noise_blocks(se_sl *s, size_t i0, const double *v, size_t lo, size_t hi,
+                                    se_error *err)
+{
+    while (lo < hi && s->bi < s->nb) {
+        size_t b0 = s->start + s->bi * s->blen;
+        size_t b1 = s->bi + 1 == s->nb ? s->end : b0 + s->blen;
+        size_t take = (hi < b1 ? hi : b1) - lo;
+        memcpy(s->bbuf + s->bfill, v + (lo - i0), take * sizeof *v);
+        s->bfill += take;
+        lo += take;
+        if (s->bfill == b1 - b0) {
+            se_status st = se_noise_block_sigma(s->bbuf, s->bfill, &s->braw[s->bi], &s->bhi[s->bi],
+                                                err);
+            if (st != SE_OK)
+                return st;
+            s->bi++;
+            s->bfill = 0;
+        }
+    }
+    return SE_OK;
+}
+
+/* Block of the profile holding lag (as se_noise_profile_sigma finds it, 0 before the range). */
+static size_t se_prof_block(const se_noise_profile *p, size_t lag)
+{
+    size_t b;
+    if (lag < p->start)
+        return 0;
+    b = (lag - p->start) / p->block;
+    return b < p->n_blocks ? b : p->n_blocks - 1;
+}
+
+/* The profile pass's scan of lags [a, b): 64 lags at a time against the lowest level of the
+ * blocks at their ends (sigma(j) >= the level of j's block), lag by lag against
+ * SE_STREAM_PRE_FRACTION of pk sigma(j) in the groups that hold one. */
+static void se_sl_scan_profile(se_sl *s, size_t i0, const double *v, size_t a, size_t b,
+                               se_status *st, se_error *err)
+{
+    const se_noise_profile *pf = s->pprof;
+    const double *p = v + (a - i0), f = SE_STREAM_PRE_FRACTION * s->pk;
+    size_t n = b - a, j, k;
+    for (j = 0; j < n && *st == SE_OK; j += 64) {
+        size_t len = n - j < 64 ? n - j : 64, hits = 0;
+        double lo = f * fmin(pf->sigma[se_prof_block(pf, a + j)],
+                             pf->sigma[se_prof_block(pf, a + j + len - 1)]);
+        for (k = 0; k < len; k++)
+            hits += fabs(p[j + k]) >= lo;
+        if (hits == 0)
+            continue;
+        for (k = 0; k < len && *st == SE_OK; k++) {
+            double t = s->pk * se_noise_profile_sigma(pf, (double)(a + j + k));
+            if (fabs(p[j + k]) >= SE_STREAM_PRE_FRACTION * t)
+                *st = se_sl_cand(s, a + j + k, fabs(p[j + k]) / t, err);
+        }
+    }
+}
+
+/* The profile p seen from a window of r that starts at lag *a_out (<= a) and ends at e: the same
+ * level at every lag of [a, e) from index j = lag - *a_out. The blocks are cut into parts of
+ * block/64 lags (more than the guard, so the guard rule picks the same neighbours) and the window
+ * starts at the part before the one holding a (so that part's neighbour is there): it grows by
+ * less than block/32 lags. out owns its sigma array (se_noise_profile_free). */
+static se_status se_window_profile(const se_noise_profile *p, size_t a, size_t e, size_t *a_out,
+                                   se_noise_profile *out, se_error *err)
+{
+    size_t per = p->block % 64 == 0 && p->block / 64 > p->guard ? 64 : 1, g = p->block / per;
+    size_t total = p->n_blocks * per, i0, i1, k;
+    memset(out, 0, sizeof *out);
+    *out = *p;
+    out->raw = NULL;
+    out->sigma = NULL;
+    if (a <= p->start) {
+        *a_out = a;
+        out->start = p->start - a;
+        i0 = 0;
+    } else if ((a - p->start) / g >= total) {
+        /* past the last part: the last block's level throughout */
+        *a_out = a;
+        out->start = 0;
+        out->n_blocks = 1;
+        out->sigma = se_calloc(1, sizeof *out->sigma, "window noise profile", err);
+        if (out->sigma == NULL)
+            return SE_ERR_NOMEM;
+        out->sigma[0] = p->sigma[p->n_blocks - 1];
+        return SE_OK;
+    } else {
+        i0 = (a - p->start) / g;
+        i0 = i0 > 0 ? i0 - 1 : 0;
+        *a_out = p->start + i0 * g;
+        out->start = 0;
+    }
+    i1 = e > p->start ? (e - 1 - p->start) / g + 1 : 1;
+    if (i1 > total - 1)
+        i1 = total - 1;
+    if (i1 < i0)
+        i1 = i0;
+    out->block = g;
+    out->n_blocks = i1 - i0 + 1;
+    out->sigma = se_calloc(out->n_blocks, sizeof *out->sigma, "window noise profile", err);
+    if (out->sigma == NULL)
+        return SE_ERR_NOMEM;
+    for (k = 0; k < out->n_blocks; k++)
+        out->sigma[k] = p->sigma[(i0 + k) / per];
+    return SE_OK;
 }
 
 /* count frames of channel ch into x, from frame pos (SIZE_MAX: from where the file is). Mono
@@ -748,11 +897,15 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
     unsigned threads, nch;
     double lag0 = 0.0, a0 = 0.0, sigma, beta, beta_crb, kthr = 0.0, thr = 0.0;
     se_xcorr_config xcfg;
+    se_noise_profile prof, wprof;
+    int varies = 0;
 
     if (res == NULL)
         return se_fail(err, SE_ERR_ARG, "stream locate: no result record");
     memset(res, 0, sizeof *res);
     memset(&s, 0, sizeof s);
+    memset(&prof, 0, sizeof prof);
+    memset(&wprof, 0, sizeof wprof);
     if (info == NULL)
         info = &dummy;
     memset(info, 0, sizeof *info);
@@ -931,6 +1084,7 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
     s.n = n;
     s.m = m;
     s.fa = cfg.false_alarms;
+    s.track = cfg.noise_tracking != 0;
     s.ext = se_acf_half_length(acf);
     s.win = se_acf_extent(acf, 1e-6);
     if (s.win < 16)
@@ -1030,6 +1184,29 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
         }
         kthr = se_rice_k((double)(s.end - s.start), beta, cfg.false_alarms);
         thr = kthr * sigma;
+        if (s.pprof != NULL)
+            break; /* the profile pass: candidates were held to each lag's own threshold */
+        /* Non-stationary noise, as se_locate (never on noise-floored records): the block sigmas
+         * of this pass; when they vary, one more pass against each lag's own threshold, since a
+         * single pre-threshold low enough for the quiet part would make one cluster of the loud
+         * part. */
+        if (s.nb > 0 && !res->noise_floored) {
+            if (s.bi != s.nb) { /* cannot happen: every lag of [start, end) was seen */
+                st = se_fail(err, SE_ERR_DATA, "stream: %zu of %zu noise blocks measured", s.bi, s.nb);
+                goto done;
+            }
+            st = se_noise_profile_from_blocks(s.braw, s.bhi, s.nb, s.start, s.blen, m,
+                                              SE_STREAM_NOISE_FLOOR * fabs(a0), &prof, &varies, err);
+            if (st != SE_OK)
+                goto done;
+            if (varies) {
+                s.pprof = &prof;
+                s.pk = kthr;
+                s.pre_fixed = SE_STREAM_PRE_FRACTION * kthr * prof.min_sigma;
+                se_sl_reset(&s);
+                continue;
+            }
+        }
         if (s.pre <= thr)
             break;
         /* the noise fell along the record below the provisional estimate: again, exactly */
@@ -1046,7 +1223,10 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
     }
     {
         double level = 0.5 * thr / fabs(a0);
-        size_t ext = level < 1.0 ? se_acf_extent(acf, level) : 0;
+        size_t ext;
+        if (varies) /* the noise where the search starts (start = k0 + m here) */
+            level = fmin(level, 0.5 * kthr * se_noise_profile_sigma(&prof, (double)s.start) / fabs(a0));
+        ext = level < 1.0 ? se_acf_extent(acf, level) : 0;
         dead = ext > m ? ext : m;
     }
     if (s.k0 + dead >= s.end) {
@@ -1068,9 +1248,9 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
         size_t e = n - wd->cand_last > s.left ? wd->cand_last + s.left + 1 : n;
         size_t s0 = wd->cand_first > s.reach ? wd->cand_first - s.reach : 0;
         size_t s1 = wd->cand_last + s.reach + 1;
-        if (!(wd->cmax >= thr))
+        /* with the profile, cmax is relative to each lag's own threshold */
+        if (!(wd->cmax >= (varies ? 1.0 : thr)))
             continue;
-        len = e - a;
         if (s0 < ds)
             s0 = ds;
         if (s1 > s.end)
@@ -1079,6 +1259,10 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
             s1 = e;
         if (s0 >= s1)
             continue;
+        se_noise_profile_free(&wprof);
+        if (varies && (st = se_window_profile(&prof, a, e, &a, &wprof, err)) != SE_OK)
+            goto done;
+        len = e - a;
         free(wdata);
         st = se_window_data(&s, snd, path, nch, scfg.channel, xc, w[0], a, e, &wdata, err);
         if (st != SE_OK)
@@ -1096,6 +1280,10 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
         dc.acf = acf;
         dc.known = &direct;
         dc.n_known = 1;
+        if (varies) {
+            dc.profile = &wprof;
+            dc.profile_sigmas = kthr;
+        }
         st = se_detect(wdata, len, &dc, &pk, &np, err);
         if (st != SE_OK)
             goto done;
@@ -1139,10 +1327,13 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
         sg.thr = thr;
         sg.beta_crb = beta_crb;
         sg.mainlobe_half_width = se_acf_mainlobe_half_width(acf);
+        sg.profile = varies ? &prof : NULL;
         st = se_locate_events(&sg, all, nall, res, err);
     }
 
 done:
+    se_noise_profile_free(&prof);
+    se_noise_profile_free(&wprof);
     se_sl_reset(&s);
     free(s.wins);
     free(s.pbuf);
