@@ -86,7 +86,9 @@ double se_rice_k(double n_lags, double beta_rad_per_sample, double false_alarms)
  * of the two blocks' levels is used, since r mixes the noise of both sides over one pulse length.
  * The threshold at lag j is then k sigma(j), k from se_rice_k on the whole record: the stated
  * false-alarm count per record holds, spread over the record in proportion to the lags. */
-#define SE_NOISE_BLOCK_SAMPLES ((size_t)1 << 13)
+#define SE_NOISE_BLOCK_SAMPLES ((size_t)1 << 10)
+/* ... and at most this many of each of its 8 parts (their MADs show a loud minority) */
+#define SE_NOISE_PART_SAMPLES ((size_t)1 << 8)
 #define SE_NOISE_VARY_RATIO 2.0
 #define SE_NOISE_RUN_RATIO 1.5
 typedef struct se_noise_profile {
@@ -106,7 +108,8 @@ size_t se_noise_block_length(size_t m);
  * the last one [start + (nb-1) L, end). */
 size_t se_noise_block_count(size_t start, size_t end, size_t block);
 /* One block's lags r_block [size: len]: *sigma its MAD sigma (se_noise_mad from 0 to len, at most
- * SE_NOISE_BLOCK_SAMPLES values), *hi the largest of *sigma and the MAD sigmas of its 8 equal parts
+ * SE_NOISE_BLOCK_SAMPLES values), *hi the largest of *sigma and the MAD sigmas (on at most
+ * SE_NOISE_PART_SAMPLES values each) of its 8 equal parts
  * (part q covers [q len/8, (q+1) len/8), the last to len; parts under 16 lags are skipped). The MAD
  * of a block ignores a loud minority of its lags; its parts do not. These are the values
  * se_noise_profile_estimate takes for the block. */
