@@ -163,11 +163,13 @@ typedef struct se_locate_result {
     double stack_expected_gain_db; /* 10 log10 shots_used */
     /* Source end and losses. */
     double source_reflection;      /* source-end coefficient used (given or estimated) */
-    int source_reflection_estimated; /* 1 when estimated from the data: from the strongest primary
-                                      A_i and its source-end multiple A_2 at twice its delay,
-                                      q = A_2 / A_i^2 (amplitudes relative to the outgoing pulse)
-                                      = r_s / (1 + r_s), so r_s = q / (1 - q); losses cancel in q.
-                                      0 with no such multiple (then r_s = 0 is used) */
+    int source_reflection_estimated; /* 1 when estimated from the data: a weighted least-squares
+                                      fit over the first-order source-end multiples of the strong
+                                      primaries, seen at t_i + t_j as q m_ij a_i a_j (amplitudes
+                                      relative to the outgoing pulse, m_ij = 2 for i != j, 1 for
+                                      i = j), q = r_s / (1 + r_s), so r_s = q / (1 - q); losses
+                                      cancel; overlapped candidates are left out. 0 when nothing
+                                      supports it (then r_s = 0 is used) */
     double attenuation_db_per_m;   /* one-way attenuation, dB/m (given or estimated); NaN unknown */
     int attenuation_estimated;     /* 1 when estimated from a matched expected event of known
                                       coefficient: g = |A seen| / |(1 + r_s) r T|, alpha from
