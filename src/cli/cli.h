@@ -82,6 +82,11 @@ typedef struct se_speed {
  * allows no speed at all (speed_m_s = 0). */
 int se_cli_speed_resolve(const se_speed_opts *o, int required, se_speed *out);
 
+/* Write a JSON document (two-space indent, trailing newline) to path ("-" = standard output)
+ * through se_output, complete or not at all; returns an exit code (message printed). */
+struct json_t;
+int se_cli_write_json(const char *path, struct json_t *root);
+
 /* Check that an output path is not one of the inputs (NULL-terminated list). */
 int se_cli_check_output(const char *out, const char *const *inputs);
 

@@ -7,6 +7,8 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include <jansson.h>
+
 #include "strandecho/output.h"
 #include "strandecho/units.h"
 
@@ -238,5 +240,29 @@ int se_cli_check_output(const char *out, const char *const *inputs)
         if (se_path_same_file(out, inputs[k]))
             return se_cli_fail(SE_EXIT_USAGE, "refusing to write %s over the input %s", out,
                                inputs[k]);
+    return SE_EXIT_OK;
+}
+
+int se_cli_write_json(const char *path, json_t *root)
+{
+    se_error err;
+    se_output *out;
+    char *text = json_dumps(root, JSON_INDENT(2) | JSON_REAL_PRECISION(12));
+    if (text == NULL)
+        return se_cli_fail(SE_EXIT_MEMORY, "%s: out of memory for the JSON output", path);
+    se_error_clear(&err);
+    out = se_output_open(path, &err);
+    if (out == NULL) {
+        free(text);
+        return se_cli_fail_err(&err, 1);
+    }
+    if (fputs(text, se_output_stream(out)) == EOF || fputc('\n', se_output_stream(out)) == EOF) {
+        free(text);
+        se_output_abort(out);
+        return se_cli_fail(SE_EXIT_OUTPUT, "%s: write failed", path);
+    }
+    free(text);
+    if (se_output_commit(out, &err) != SE_OK)
+        return se_cli_fail_err(&err, 1);
     return SE_EXIT_OK;
 }

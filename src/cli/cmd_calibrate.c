@@ -61,7 +61,6 @@ typedef struct se_cal_value {
 static int se_pick_event(const se_locate_result *res, const se_expected_event *exp, size_t nexp,
                          const char *feature, double t_nominal, size_t *pick, int *matched);
 static void se_format_value(const se_cal_value *v, int feet, char *buf, size_t size);
-static int se_cal_write_json(const char *path, json_t *root);
 
 static json_t *se_jnum(double x)
 {
@@ -428,7 +427,7 @@ int se_cmd_calibrate(int argc, char **argv)
             rc = se_cli_fail(SE_EXIT_MEMORY, "calibrate: out of memory for the JSON output");
             goto done;
         }
-        if ((rc = se_cal_write_json(json, root)) != SE_EXIT_OK)
+        if ((rc = se_cli_write_json(json, root)) != SE_EXIT_OK)
             goto done;
     }
     if (!c.quiet && !(json != NULL && strcmp(json, "-") == 0)) {
@@ -521,26 +520,3 @@ static void se_format_value(const se_cal_value *v, int feet, char *buf, size_t s
         snprintf(buf, size, "%s: %.6g (+/- %.3g)", v->key, v->value, v->sigma);
 }
 
-static int se_cal_write_json(const char *path, json_t *root)
-{
-    se_error err;
-    se_output *out;
-    char *text = json_dumps(root, JSON_INDENT(2) | JSON_REAL_PRECISION(12));
-    if (text == NULL)
-        return se_cli_fail(SE_EXIT_MEMORY, "calibrate: out of memory for the JSON output");
-    se_error_clear(&err);
-    out = se_output_open(path, &err);
-    if (out == NULL) {
-        free(text);
-        return se_cli_fail_err(&err, 1);
-    }
-    if (fputs(text, se_output_stream(out)) == EOF || fputc('\n', se_output_stream(out)) == EOF) {
-        free(text);
-        se_output_abort(out);
-        return se_cli_fail(SE_EXIT_OUTPUT, "%s: write failed", path);
-    }
-    free(text);
-    if (se_output_commit(out, &err) != SE_OK)
-        return se_cli_fail_err(&err, 1);
-    return SE_EXIT_OK;
-}

@@ -54,7 +54,6 @@ static const char se_plan_usage[] =
 
 static double se_nice_up(double x);
 static void se_fmt_time(double t, char *buf, size_t size);
-static int se_plan_write_json(const char *path, json_t *root);
 
 static json_t *se_jnum(double x)
 {
@@ -281,7 +280,7 @@ int se_cmd_plan(int argc, char **argv)
             rc = se_cli_fail(SE_EXIT_MEMORY, "plan: out of memory for the JSON output");
             goto done;
         }
-        if ((rc = se_plan_write_json(json, root)) != SE_EXIT_OK)
+        if ((rc = se_cli_write_json(json, root)) != SE_EXIT_OK)
             goto done;
     }
 
@@ -377,26 +376,3 @@ static void se_fmt_time(double t, char *buf, size_t size)
         snprintf(buf, size, "%.6gns", t * 1e9);
 }
 
-static int se_plan_write_json(const char *path, json_t *root)
-{
-    se_error err;
-    se_output *out;
-    char *text = json_dumps(root, JSON_INDENT(2) | JSON_REAL_PRECISION(12));
-    if (text == NULL)
-        return se_cli_fail(SE_EXIT_MEMORY, "plan: out of memory for the JSON output");
-    se_error_clear(&err);
-    out = se_output_open(path, &err);
-    if (out == NULL) {
-        free(text);
-        return se_cli_fail_err(&err, 1);
-    }
-    if (fputs(text, se_output_stream(out)) == EOF || fputc('\n', se_output_stream(out)) == EOF) {
-        free(text);
-        se_output_abort(out);
-        return se_cli_fail(SE_EXIT_OUTPUT, "%s: write failed", path);
-    }
-    free(text);
-    if (se_output_commit(out, &err) != SE_OK)
-        return se_cli_fail_err(&err, 1);
-    return SE_EXIT_OK;
-}

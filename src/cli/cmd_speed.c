@@ -42,7 +42,6 @@ static void se_speed_print(const se_line *ln, const se_expected_event *ev, size_
                            int have_length, int have_end, const char *line_path);
 static json_t *se_speed_json(const se_line *ln, const se_expected_event *ev, size_t nev,
                              int have_length, int have_end, const char *line_path);
-static int se_speed_write_json(const char *path, json_t *root);
 
 /* A JSON number, or null for NaN / infinity. */
 static json_t *se_jnum(double x)
@@ -120,7 +119,7 @@ int se_cmd_speed(int argc, char **argv)
             rc = se_cli_fail(SE_EXIT_MEMORY, "speed: out of memory for the JSON output");
             goto done;
         }
-        rc = se_speed_write_json(json, root);
+        rc = se_cli_write_json(json, root);
         json_decref(root);
         if (rc != SE_EXIT_OK)
             goto done;
@@ -450,26 +449,3 @@ static json_t *se_speed_json(const se_line *ln, const se_expected_event *ev, siz
     return root;
 }
 
-static int se_speed_write_json(const char *path, json_t *root)
-{
-    se_error err;
-    se_output *out;
-    char *text = json_dumps(root, JSON_INDENT(2) | JSON_REAL_PRECISION(12));
-    if (text == NULL)
-        return se_cli_fail(SE_EXIT_MEMORY, "speed: out of memory for the JSON output");
-    se_error_clear(&err);
-    out = se_output_open(path, &err);
-    if (out == NULL) {
-        free(text);
-        return se_cli_fail_err(&err, 1);
-    }
-    if (fputs(text, se_output_stream(out)) == EOF || fputc('\n', se_output_stream(out)) == EOF) {
-        free(text);
-        se_output_abort(out);
-        return se_cli_fail(SE_EXIT_OUTPUT, "%s: write failed", path);
-    }
-    free(text);
-    if (se_output_commit(out, &err) != SE_OK)
-        return se_cli_fail_err(&err, 1);
-    return SE_EXIT_OK;
-}
