@@ -414,7 +414,7 @@ static void test_nonfinite(void)
         sf_close(f);
     }
     CHECK(read_fails("nan.wav", NULL, &err));
-    if (!CHECK(err.code == SE_ERR_DATA && strcmp(err.message, "nan.wav: sample 1234 (channel 2) is NaN") == 0))
+    if (!CHECK(err.code == SE_ERR_DATA && strcmp(err.message, "nan.wav: sample 1234 (channel 3) is NaN") == 0))
         fprintf(stderr, "  got: %s\n", err.message);
     v[1234 * C + 2] = 0.0f;
     v[1999 * C + 1] = -INFINITY;
@@ -424,7 +424,7 @@ static void test_nonfinite(void)
         sf_close(f);
     }
     CHECK(read_fails("nan.wav", NULL, &err));
-    CHECK(err.code == SE_ERR_DATA && strcmp(err.message, "nan.wav: sample 1300 (channel 0) is +Inf") == 0);
+    CHECK(err.code == SE_ERR_DATA && strcmp(err.message, "nan.wav: sample 1300 (channel 1) is +Inf") == 0);
     remove("nan.wav");
     free(v);
 }

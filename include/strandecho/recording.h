@@ -6,7 +6,8 @@
  * (divided by 2^(bits-1)); float files are returned unscaled.
  *
  * Numbering in messages: text files name 1-based LINE and COLUMN ("FILE:LINE:COLUMN: ...");
- * sample and channel numbers of recordings are 0-based, like the arrays ("sample 1234 (channel 2)"). */
+ * sample numbers are 0-based, like the arrays, and channel numbers 1-based, as the command line's
+ * --channel ("sample 1234 (channel 2)" is data[1 * frames + 1234]). */
 #ifndef SE_RECORDING_H
 #define SE_RECORDING_H
 

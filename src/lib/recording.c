@@ -299,9 +299,9 @@ done:
 static se_status se_check_sample(const char *path, double v, size_t i, unsigned c, se_error *err)
 {
     if (isnan(v))
-        return se_fail(err, SE_ERR_DATA, "%s: sample %zu (channel %u) is NaN", path, i, c);
+        return se_fail(err, SE_ERR_DATA, "%s: sample %zu (channel %u) is NaN", path, i, c + 1);
     if (isinf(v))
-        return se_fail(err, SE_ERR_DATA, "%s: sample %zu (channel %u) is %cInf", path, i, c,
+        return se_fail(err, SE_ERR_DATA, "%s: sample %zu (channel %u) is %cInf", path, i, c + 1,
                        v > 0 ? '+' : '-');
     return SE_OK;
 }

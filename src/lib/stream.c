@@ -760,7 +760,7 @@ static void *se_reader_run(void *arg)
     if ((bad = se_first_bad(rd->buf + rd->have, take)) < take) {
         double v = rd->buf[rd->have + bad];
         rd->st = se_fail(&rd->err, SE_ERR_DATA, "%s: sample %zu (channel %u) is %s", rd->path,
-                         rd->readpos + bad, rd->ch, isnan(v) ? "NaN" : "infinite");
+                         rd->readpos + bad, rd->ch + 1, isnan(v) ? "NaN" : "infinite");
         return NULL;
     }
     if (!rd->s->pass0)
@@ -1014,7 +1014,7 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
         for (i = 0; i < pw; i++)
             if (!isfinite(pbuf_pulse[i])) {
                 st = se_fail(err, SE_ERR_DATA, "%s: sample %zu (channel %d) is not finite", path, i,
-                             scfg.pulse_channel);
+                             scfg.pulse_channel + 1);
                 goto done;
             }
         if ((st = se_pulse_support(pbuf_pulse, pw, &b, &e, err)) != SE_OK) {
