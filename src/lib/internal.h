@@ -2,6 +2,7 @@
 #ifndef SE_INTERNAL_H
 #define SE_INTERNAL_H
 
+#include <stdarg.h>
 #include <stddef.h>
 #include <stdint.h>
 
@@ -29,6 +30,20 @@ int se_mul_size(size_t n, size_t size, size_t *out);
 
 /* strdup into malloc'd memory; NULL on failure (err filled). */
 char *se_strdup(const char *s, se_error *err);
+
+/* A growable, NUL-terminated text buffer (strbuf.c): start zeroed; once an allocation fails,
+ * failed is set and further additions are ignored; the owner frees p. */
+typedef struct se_strbuf {
+    char *p;
+    size_t len, cap;
+    int failed;
+} se_strbuf;
+void se_strbuf_add(se_strbuf *b, const char *s, size_t n);
+void se_strbuf_vprintf(se_strbuf *b, const char *fmt, va_list ap);
+void se_strbuf_printf(se_strbuf *b, const char *fmt, ...) SE_PRINTF(2, 3);
+/* s (NULL: nothing) with & < > " ' as XML entities and control characters but tab and newline as
+ * spaces (not allowed in XML 1.0). */
+void se_strbuf_xml_escape(se_strbuf *b, const char *s);
 
 /* The locator's last stage, shared by the whole-record pipeline (locate.c) and any streaming
  * one: from detected peaks of the matched-filter output to classified events with distances,

@@ -35,11 +35,7 @@
 #define SE_PLOT_MIN_SIZE 200.0
 #define SE_PLOT_MAX_SIZE 10000.0
 
-typedef struct se_sb {
-    char *p;
-    size_t len, cap;
-    int failed;
-} se_sb;
+typedef se_strbuf se_sb;
 
 typedef enum se_dash { SE_SOLID = 0, SE_DASHED, SE_DOTTED } se_dash;
 typedef enum se_shape { SE_DIAMOND = 0, SE_CIRCLE, SE_TRIANGLE } se_shape;
@@ -70,10 +66,7 @@ typedef struct se_lay {
     const int *match;
 } se_lay;
 
-static void se_sb_add(se_sb *b, const char *s, size_t n);
-static void se_sb_printf(se_sb *b, const char *fmt, ...) SE_PRINTF(2, 3);
 static void se_sb_num(se_sb *b, double v);
-static void se_sb_esc(se_sb *b, const char *s);
 static void se_cv_colour(const se_cv *cv, unsigned long rgb);
 static void se_cv_stroke_style(se_cv *cv, unsigned long rgb, double w, se_dash dash, double s);
 static void se_cv_line(se_cv *cv, double x0, double y0, double x1, double y1, unsigned long rgb, double w,
@@ -107,48 +100,6 @@ static cairo_status_t se_cairo_to_file(void *closure, const unsigned char *data,
 
 /* ---- string buffer ---------------------------------------------------------------------- */
 
-static void se_sb_add(se_sb *b, const char *s, size_t n)
-{
-    if (b->failed)
-        return;
-    if (b->len + n + 1 > b->cap) {
-        size_t cap = b->cap ? b->cap : 4096;
-        char *p;
-        while (cap < b->len + n + 1) {
-            if (cap > ((size_t)-1) / 2) {
-                b->failed = 1;
-                return;
-            }
-            cap *= 2;
-        }
-        p = realloc(b->p, cap);
-        if (p == NULL) {
-            b->failed = 1;
-            return;
-        }
-        b->p = p;
-        b->cap = cap;
-    }
-    memcpy(b->p + b->len, s, n);
-    b->len += n;
-    b->p[b->len] = '\0';
-}
-
-static void se_sb_printf(se_sb *b, const char *fmt, ...)
-{
-    char tmp[512];
-    va_list ap;
-    int n;
-    va_start(ap, fmt);
-    n = vsnprintf(tmp, sizeof tmp, fmt, ap);
-    va_end(ap);
-    if (n < 0 || (size_t)n >= sizeof tmp) {
-        b->failed = 1;
-        return;
-    }
-    se_sb_add(b, tmp, (size_t)n);
-}
-
 /* A coordinate with two decimals, by integer arithmetic so no locale can change the point. */
 static void se_sb_num(se_sb *b, double v)
 {
@@ -161,33 +112,15 @@ static void se_sb_num(se_sb *b, double v)
         v = -1e12;
     c = llround(v * 100.0);
     if (c < 0) {
-        se_sb_add(b, "-", 1);
+        se_strbuf_add(b, "-", 1);
         c = -c;
     }
     if (c % 100 == 0)
-        se_sb_printf(b, "%lld", c / 100);
+        se_strbuf_printf(b, "%lld", c / 100);
     else if (c % 10 == 0)
-        se_sb_printf(b, "%lld.%lld", c / 100, (c % 100) / 10);
+        se_strbuf_printf(b, "%lld.%lld", c / 100, (c % 100) / 10);
     else
-        se_sb_printf(b, "%lld.%02lld", c / 100, c % 100);
-}
-
-static void se_sb_esc(se_sb *b, const char *s)
-{
-    for (; *s; s++) {
-        switch (*s) {
-        case '&': se_sb_add(b, "&amp;", 5); break;
-        case '<': se_sb_add(b, "&lt;", 4); break;
-        case '>': se_sb_add(b, "&gt;", 4); break;
-        case '"': se_sb_add(b, "&quot;", 6); break;
-        case '\'': se_sb_add(b, "&#39;", 5); break;
-        default:
-            if ((unsigned char)*s < 0x20 && *s != '\t' && *s != '\n')
-                se_sb_add(b, " ", 1); /* control characters are not allowed in XML 1.0 */
-            else
-                se_sb_add(b, s, 1);
-        }
-    }
+        se_strbuf_printf(b, "%lld.%02lld", c / 100, c % 100);
 }
 
 /* ---- canvas ------------------------------------------------------------------------------ */
@@ -218,21 +151,21 @@ static void se_cv_stroke_style(se_cv *cv, unsigned long rgb, double w, se_dash d
         }
         return;
     }
-    se_sb_printf(cv->svg, " fill=\"none\" stroke=\"#%06lx\" stroke-width=\"", rgb);
+    se_strbuf_printf(cv->svg, " fill=\"none\" stroke=\"#%06lx\" stroke-width=\"", rgb);
     se_sb_num(cv->svg, w);
-    se_sb_add(cv->svg, "\"", 1);
+    se_strbuf_add(cv->svg, "\"", 1);
     if (dash == SE_DASHED) {
-        se_sb_add(cv->svg, " stroke-dasharray=\"", 19);
+        se_strbuf_add(cv->svg, " stroke-dasharray=\"", 19);
         se_sb_num(cv->svg, 5.0 * s);
-        se_sb_add(cv->svg, " ", 1);
+        se_strbuf_add(cv->svg, " ", 1);
         se_sb_num(cv->svg, 3.0 * s);
-        se_sb_add(cv->svg, "\"", 1);
+        se_strbuf_add(cv->svg, "\"", 1);
     } else if (dash == SE_DOTTED) {
-        se_sb_add(cv->svg, " stroke-dasharray=\"", 19);
+        se_strbuf_add(cv->svg, " stroke-dasharray=\"", 19);
         se_sb_num(cv->svg, 1.2 * s);
-        se_sb_add(cv->svg, " ", 1);
+        se_strbuf_add(cv->svg, " ", 1);
         se_sb_num(cv->svg, 2.4 * s);
-        se_sb_add(cv->svg, "\"", 1);
+        se_strbuf_add(cv->svg, "\"", 1);
     }
 }
 
@@ -262,32 +195,32 @@ static void se_cv_path(se_cv *cv, const double *x, const double *y, size_t n, un
         cairo_stroke(cv->cr);
         return;
     }
-    se_sb_add(cv->svg, n == 2 ? "<line" : "<polyline", n == 2 ? 5 : 9);
+    se_strbuf_add(cv->svg, n == 2 ? "<line" : "<polyline", n == 2 ? 5 : 9);
     if (cls != NULL)
-        se_sb_printf(cv->svg, " class=\"%s\"", cls);
+        se_strbuf_printf(cv->svg, " class=\"%s\"", cls);
     if (n == 2) {
-        se_sb_add(cv->svg, " x1=\"", 5);
+        se_strbuf_add(cv->svg, " x1=\"", 5);
         se_sb_num(cv->svg, x[0]);
-        se_sb_add(cv->svg, "\" y1=\"", 6);
+        se_strbuf_add(cv->svg, "\" y1=\"", 6);
         se_sb_num(cv->svg, y[0]);
-        se_sb_add(cv->svg, "\" x2=\"", 6);
+        se_strbuf_add(cv->svg, "\" x2=\"", 6);
         se_sb_num(cv->svg, x[1]);
-        se_sb_add(cv->svg, "\" y2=\"", 6);
+        se_strbuf_add(cv->svg, "\" y2=\"", 6);
         se_sb_num(cv->svg, y[1]);
-        se_sb_add(cv->svg, "\"", 1);
+        se_strbuf_add(cv->svg, "\"", 1);
     } else {
-        se_sb_add(cv->svg, " points=\"", 9);
+        se_strbuf_add(cv->svg, " points=\"", 9);
         for (i = 0; i < n; i++) {
             if (i > 0)
-                se_sb_add(cv->svg, " ", 1);
+                se_strbuf_add(cv->svg, " ", 1);
             se_sb_num(cv->svg, x[i]);
-            se_sb_add(cv->svg, ",", 1);
+            se_strbuf_add(cv->svg, ",", 1);
             se_sb_num(cv->svg, y[i]);
         }
-        se_sb_add(cv->svg, "\"", 1);
+        se_strbuf_add(cv->svg, "\"", 1);
     }
     se_cv_stroke_style(cv, rgb, w, dash, s);
-    se_sb_add(cv->svg, " stroke-linejoin=\"round\"/>\n", 27);
+    se_strbuf_add(cv->svg, " stroke-linejoin=\"round\"/>\n", 27);
 }
 
 static void se_cv_rect(se_cv *cv, double x, double y, double w, double h, long fill, long stroke, double sw,
@@ -307,27 +240,27 @@ static void se_cv_rect(se_cv *cv, double x, double y, double w, double h, long f
         cairo_new_path(cv->cr);
         return;
     }
-    se_sb_add(cv->svg, "<rect", 5);
+    se_strbuf_add(cv->svg, "<rect", 5);
     if (cls != NULL)
-        se_sb_printf(cv->svg, " class=\"%s\"", cls);
-    se_sb_add(cv->svg, " x=\"", 4);
+        se_strbuf_printf(cv->svg, " class=\"%s\"", cls);
+    se_strbuf_add(cv->svg, " x=\"", 4);
     se_sb_num(cv->svg, x);
-    se_sb_add(cv->svg, "\" y=\"", 5);
+    se_strbuf_add(cv->svg, "\" y=\"", 5);
     se_sb_num(cv->svg, y);
-    se_sb_add(cv->svg, "\" width=\"", 9);
+    se_strbuf_add(cv->svg, "\" width=\"", 9);
     se_sb_num(cv->svg, w);
-    se_sb_add(cv->svg, "\" height=\"", 10);
+    se_strbuf_add(cv->svg, "\" height=\"", 10);
     se_sb_num(cv->svg, h);
     if (fill != SE_NONE)
-        se_sb_printf(cv->svg, "\" fill=\"#%06lx\"", (unsigned long)fill);
+        se_strbuf_printf(cv->svg, "\" fill=\"#%06lx\"", (unsigned long)fill);
     else
-        se_sb_add(cv->svg, "\" fill=\"none\"", 13);
+        se_strbuf_add(cv->svg, "\" fill=\"none\"", 13);
     if (stroke != SE_NONE) {
-        se_sb_printf(cv->svg, " stroke=\"#%06lx\" stroke-width=\"", (unsigned long)stroke);
+        se_strbuf_printf(cv->svg, " stroke=\"#%06lx\" stroke-width=\"", (unsigned long)stroke);
         se_sb_num(cv->svg, sw);
-        se_sb_add(cv->svg, "\"", 1);
+        se_strbuf_add(cv->svg, "\"", 1);
     }
-    se_sb_add(cv->svg, "/>\n", 3);
+    se_strbuf_add(cv->svg, "/>\n", 3);
 }
 
 /* Marker centred on (x, y) with "radius" r. SVG: circles are <circle cx cy>, other shapes <path>
@@ -372,63 +305,63 @@ static void se_cv_marker(se_cv *cv, se_shape shape, double x, double y, double r
         return;
     }
     if (shape == SE_CIRCLE) {
-        se_sb_add(cv->svg, "<circle cx=\"", 12);
+        se_strbuf_add(cv->svg, "<circle cx=\"", 12);
         se_sb_num(cv->svg, x);
-        se_sb_add(cv->svg, "\" cy=\"", 6);
+        se_strbuf_add(cv->svg, "\" cy=\"", 6);
         se_sb_num(cv->svg, y);
-        se_sb_add(cv->svg, "\" r=\"", 5);
+        se_strbuf_add(cv->svg, "\" r=\"", 5);
         se_sb_num(cv->svg, r);
-        se_sb_add(cv->svg, "\"", 1);
+        se_strbuf_add(cv->svg, "\"", 1);
     } else {
-        se_sb_add(cv->svg, "<path d=\"M", 10);
+        se_strbuf_add(cv->svg, "<path d=\"M", 10);
         if (shape == SE_DIAMOND) {
             se_sb_num(cv->svg, x);
-            se_sb_add(cv->svg, " ", 1);
+            se_strbuf_add(cv->svg, " ", 1);
             se_sb_num(cv->svg, y - r);
-            se_sb_add(cv->svg, "L", 1);
+            se_strbuf_add(cv->svg, "L", 1);
             se_sb_num(cv->svg, x + 0.75 * r);
-            se_sb_add(cv->svg, " ", 1);
+            se_strbuf_add(cv->svg, " ", 1);
             se_sb_num(cv->svg, y);
-            se_sb_add(cv->svg, "L", 1);
+            se_strbuf_add(cv->svg, "L", 1);
             se_sb_num(cv->svg, x);
-            se_sb_add(cv->svg, " ", 1);
+            se_strbuf_add(cv->svg, " ", 1);
             se_sb_num(cv->svg, y + r);
-            se_sb_add(cv->svg, "L", 1);
+            se_strbuf_add(cv->svg, "L", 1);
             se_sb_num(cv->svg, x - 0.75 * r);
-            se_sb_add(cv->svg, " ", 1);
+            se_strbuf_add(cv->svg, " ", 1);
             se_sb_num(cv->svg, y);
         } else {
             int i;
             for (i = 0; i < 3; i++) {
                 if (i > 0)
-                    se_sb_add(cv->svg, "L", 1);
+                    se_strbuf_add(cv->svg, "L", 1);
                 se_sb_num(cv->svg, px[i]);
-                se_sb_add(cv->svg, " ", 1);
+                se_strbuf_add(cv->svg, " ", 1);
                 se_sb_num(cv->svg, py[i]);
             }
         }
-        se_sb_add(cv->svg, "Z\" data-x=\"", 11);
+        se_strbuf_add(cv->svg, "Z\" data-x=\"", 11);
         se_sb_num(cv->svg, x);
-        se_sb_add(cv->svg, "\" data-y=\"", 10);
+        se_strbuf_add(cv->svg, "\" data-y=\"", 10);
         se_sb_num(cv->svg, y);
-        se_sb_add(cv->svg, "\"", 1);
+        se_strbuf_add(cv->svg, "\"", 1);
     }
     if (id != NULL)
-        se_sb_printf(cv->svg, " id=\"%s\"", id);
+        se_strbuf_printf(cv->svg, " id=\"%s\"", id);
     if (attrs != NULL) {
-        se_sb_add(cv->svg, " ", 1);
-        se_sb_add(cv->svg, attrs, strlen(attrs));
+        se_strbuf_add(cv->svg, " ", 1);
+        se_strbuf_add(cv->svg, attrs, strlen(attrs));
     }
     if (fill != SE_NONE)
-        se_sb_printf(cv->svg, " fill=\"#%06lx\"", (unsigned long)fill);
+        se_strbuf_printf(cv->svg, " fill=\"#%06lx\"", (unsigned long)fill);
     else
-        se_sb_add(cv->svg, " fill=\"#ffffff\"", 15);
+        se_strbuf_add(cv->svg, " fill=\"#ffffff\"", 15);
     if (stroke != SE_NONE) {
-        se_sb_printf(cv->svg, " stroke=\"#%06lx\" stroke-width=\"", (unsigned long)stroke);
+        se_strbuf_printf(cv->svg, " stroke=\"#%06lx\" stroke-width=\"", (unsigned long)stroke);
         se_sb_num(cv->svg, sw);
-        se_sb_add(cv->svg, "\"", 1);
+        se_strbuf_add(cv->svg, "\"", 1);
     }
-    se_sb_add(cv->svg, "/>\n", 3);
+    se_strbuf_add(cv->svg, "/>\n", 3);
 }
 
 static double se_cv_text_width(const se_cv *cv, const char *t, double size, int bold)
@@ -457,19 +390,19 @@ static void se_cv_text(se_cv *cv, double x, double y, const char *t, double size
         cairo_new_path(cv->cr);
         return;
     }
-    se_sb_add(cv->svg, "<text", 5);
+    se_strbuf_add(cv->svg, "<text", 5);
     if (cls != NULL)
-        se_sb_printf(cv->svg, " class=\"%s\"", cls);
-    se_sb_add(cv->svg, " x=\"", 4);
+        se_strbuf_printf(cv->svg, " class=\"%s\"", cls);
+    se_strbuf_add(cv->svg, " x=\"", 4);
     se_sb_num(cv->svg, x);
-    se_sb_add(cv->svg, "\" y=\"", 5);
+    se_strbuf_add(cv->svg, "\" y=\"", 5);
     se_sb_num(cv->svg, y);
-    se_sb_add(cv->svg, "\" font-size=\"", 13);
+    se_strbuf_add(cv->svg, "\" font-size=\"", 13);
     se_sb_num(cv->svg, size);
-    se_sb_printf(cv->svg, "\" text-anchor=\"%s\" fill=\"#%06lx\"%s>", anchors[anchor], rgb,
+    se_strbuf_printf(cv->svg, "\" text-anchor=\"%s\" fill=\"#%06lx\"%s>", anchors[anchor], rgb,
                  bold ? " font-weight=\"bold\"" : "");
-    se_sb_esc(cv->svg, t);
-    se_sb_add(cv->svg, "</text>\n", 8);
+    se_strbuf_xml_escape(cv->svg, t);
+    se_strbuf_add(cv->svg, "</text>\n", 8);
 }
 
 static void se_cv_clip(se_cv *cv, double x, double y, double w, double h)
@@ -482,15 +415,15 @@ static void se_cv_clip(se_cv *cv, double x, double y, double w, double h)
         return;
     }
     cv->clip_count++;
-    se_sb_printf(cv->svg, "<clipPath id=\"%s-clip%d\"><rect x=\"", cv->pfx, cv->clip_count);
+    se_strbuf_printf(cv->svg, "<clipPath id=\"%s-clip%d\"><rect x=\"", cv->pfx, cv->clip_count);
     se_sb_num(cv->svg, x);
-    se_sb_add(cv->svg, "\" y=\"", 5);
+    se_strbuf_add(cv->svg, "\" y=\"", 5);
     se_sb_num(cv->svg, y);
-    se_sb_add(cv->svg, "\" width=\"", 9);
+    se_strbuf_add(cv->svg, "\" width=\"", 9);
     se_sb_num(cv->svg, w);
-    se_sb_add(cv->svg, "\" height=\"", 10);
+    se_strbuf_add(cv->svg, "\" height=\"", 10);
     se_sb_num(cv->svg, h);
-    se_sb_printf(cv->svg, "\"/></clipPath>\n<g clip-path=\"url(#%s-clip%d)\">\n", cv->pfx, cv->clip_count);
+    se_strbuf_printf(cv->svg, "\"/></clipPath>\n<g clip-path=\"url(#%s-clip%d)\">\n", cv->pfx, cv->clip_count);
 }
 
 static void se_cv_unclip(se_cv *cv)
@@ -498,7 +431,7 @@ static void se_cv_unclip(se_cv *cv)
     if (cv->cr != NULL)
         cairo_restore(cv->cr);
     else
-        se_sb_add(cv->svg, "</g>\n", 5);
+        se_strbuf_add(cv->svg, "</g>\n", 5);
 }
 
 /* ---- numbers and mappings ---------------------------------------------------------------- */
@@ -1021,13 +954,13 @@ static se_status se_draw(const se_lay *L, se_cv *cv, se_error *err)
         snprintf(id, sizeof id, "%s-event-%zu", cv->pfx, i + 1);
         if (cv->svg != NULL) {
             se_sb tmp = {NULL, 0, 0, 0};
-            se_sb_add(&tmp, "class=\"se-event", 15);
-            se_sb_add(&tmp, ev->multiple ? " se-multiple" : " se-primary", ev->multiple ? 12 : 11);
+            se_strbuf_add(&tmp, "class=\"se-event", 15);
+            se_strbuf_add(&tmp, ev->multiple ? " se-multiple" : " se-primary", ev->multiple ? 12 : 11);
             if (ev->low_confidence)
-                se_sb_add(&tmp, " se-low-confidence", 18);
-            se_sb_add(&tmp, "\" data-distance-m=\"", 19);
-            se_sb_printf(&tmp, "%.6f", ev->distance_m);
-            se_sb_printf(&tmp, "\" data-class=\"%s\"", se_event_class(r, ev));
+                se_strbuf_add(&tmp, " se-low-confidence", 18);
+            se_strbuf_add(&tmp, "\" data-distance-m=\"", 19);
+            se_strbuf_printf(&tmp, "%.6f", ev->distance_m);
+            se_strbuf_printf(&tmp, "\" data-class=\"%s\"", se_event_class(r, ev));
             if (tmp.failed || tmp.len >= sizeof attrs) {
                 free(tmp.p);
                 return se_fail(err, SE_ERR_NOMEM, "plot: cannot format the marker of event %zu", i + 1);
@@ -1283,18 +1216,18 @@ char *se_plot_svg_string(const se_plot_data *data, double width, double height, 
         return NULL;
     }
     if (!(flags & SE_PLOT_SVG_INLINE))
-        se_sb_printf(&sb, "<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n");
-    se_sb_printf(&sb, "<svg%s id=\"%s-plot\" width=\"%ld\" height=\"%ld\" viewBox=\"0 0 %ld %ld\" "
+        se_strbuf_printf(&sb, "<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n");
+    se_strbuf_printf(&sb, "<svg%s id=\"%s-plot\" width=\"%ld\" height=\"%ld\" viewBox=\"0 0 %ld %ld\" "
                  "font-family=\"sans-serif\" role=\"img\">\n",
                  (flags & SE_PLOT_SVG_INLINE) ? "" : " xmlns=\"http://www.w3.org/2000/svg\"", id_prefix,
                  lround(width), lround(height), lround(width), lround(height));
-    se_sb_add(&sb, "<title>", 7);
-    se_sb_esc(&sb, data->title != NULL ? data->title : "reflectogram");
-    se_sb_add(&sb, "</title>\n", 9);
-    se_sb_printf(&sb, "<rect width=\"%ld\" height=\"%ld\" fill=\"#ffffff\"/>\n", lround(width), lround(height));
+    se_strbuf_add(&sb, "<title>", 7);
+    se_strbuf_xml_escape(&sb, data->title != NULL ? data->title : "reflectogram");
+    se_strbuf_add(&sb, "</title>\n", 9);
+    se_strbuf_printf(&sb, "<rect width=\"%ld\" height=\"%ld\" fill=\"#ffffff\"/>\n", lround(width), lround(height));
     st = se_plot_render(data, &cv, width, height, err);
     cairo_destroy(cv.measure);
-    se_sb_add(&sb, "</svg>\n", 7);
+    se_strbuf_add(&sb, "</svg>\n", 7);
     if (st == SE_OK && sb.failed)
         st = se_fail(err, SE_ERR_NOMEM, "plot: out of memory while writing the SVG");
     if (st != SE_OK) {

@@ -15,9 +15,7 @@
 #define SE_FT 0.3048
 
 typedef struct se_rb {
-    char *p;
-    size_t len, cap;
-    int failed;
+    se_strbuf sb;    /* the document */
     char nb[16][64]; /* number buffers, used in turn */
     unsigned next;
     double k;        /* display units per metre */
@@ -83,63 +81,20 @@ static void se_report_changes(se_rb *b, const se_report *r, const se_report_line
 
 static void se_rb_add(se_rb *b, const char *s)
 {
-    size_t n = strlen(s);
-    if (b->failed)
-        return;
-    if (b->len + n + 1 > b->cap) {
-        size_t cap = b->cap ? b->cap : 16384;
-        char *p;
-        while (cap < b->len + n + 1) {
-            if (cap > ((size_t)-1) / 2) {
-                b->failed = 1;
-                return;
-            }
-            cap *= 2;
-        }
-        p = realloc(b->p, cap);
-        if (p == NULL) {
-            b->failed = 1;
-            return;
-        }
-        b->p = p;
-        b->cap = cap;
-    }
-    memcpy(b->p + b->len, s, n + 1);
-    b->len += n;
+    se_strbuf_add(&b->sb, s, strlen(s));
 }
 
 static void se_rb_printf(se_rb *b, const char *fmt, ...)
 {
-    char tmp[1024];
     va_list ap;
-    int n;
     va_start(ap, fmt);
-    n = vsnprintf(tmp, sizeof tmp, fmt, ap);
+    se_strbuf_vprintf(&b->sb, fmt, ap);
     va_end(ap);
-    if (n < 0 || (size_t)n >= sizeof tmp) {
-        b->failed = 1;
-        return;
-    }
-    se_rb_add(b, tmp);
 }
 
 static void se_rb_esc(se_rb *b, const char *s)
 {
-    char one[2] = {0, 0};
-    if (s == NULL)
-        return;
-    for (; *s; s++) {
-        switch (*s) {
-        case '&': se_rb_add(b, "&amp;"); break;
-        case '<': se_rb_add(b, "&lt;"); break;
-        case '>': se_rb_add(b, "&gt;"); break;
-        case '"': se_rb_add(b, "&quot;"); break;
-        case '\'': se_rb_add(b, "&#39;"); break;
-        default:
-            one[0] = ((unsigned char)*s < 0x20 && *s != '\n' && *s != '\t') ? ' ' : *s;
-            se_rb_add(b, one);
-        }
-    }
+    se_strbuf_xml_escape(&b->sb, s);
 }
 
 /* Put the decimal point back to '.' whatever the locale wrote (C-locale output). */
@@ -913,9 +868,9 @@ char *se_report_html(const se_report *r, se_error *err)
     for (i = 0; i < n_init; i++)
         se_rmatch_free(&m[i]);
     free(m);
-    if (st == SE_OK && b->failed)
+    if (st == SE_OK && b->sb.failed)
         st = se_fail(err, SE_ERR_NOMEM, "report: out of memory while writing the HTML");
-    out = b->p;
+    out = b->sb.p;
     if (st != SE_OK) {
         free(out);
         out = NULL;
