@@ -51,6 +51,14 @@ int se_cli_value(se_cli *c, const char *name, const char **value);
         continue;                                                                                 \
     }
 
+/* The same for a whole-number option in [min, max] (an unsigned long var; a char *v in scope). */
+#define SE_TAKE_UINT(name, min, max, var)                                                         \
+    if ((got = se_cli_value(&c, name, &v)) != 0) {                                                \
+        if (got < 0 || se_cli_uint(name, v, min, max, &(var)) != 0)                               \
+            return SE_EXIT_USAGE;                                                                 \
+        continue;                                                                                 \
+    }
+
 /* If argv[i] is exactly --name (a flag), advance and return 1. */
 int se_cli_flag(se_cli *c, const char *name);
 /* Parse a positive integer option value (1-based channel numbers etc.). */

@@ -115,16 +115,8 @@ int se_cmd_calibrate(int argc, char **argv)
         SE_TAKE("--distance-uncertainty", known_sigma)
         SE_TAKE("--feature", feature)
         SE_TAKE("--segment", segment_name)
-        if ((got = se_cli_value(&c, "--channel", &v)) != 0) {
-            if (got < 0 || se_cli_uint("--channel", v, 1, 65535, &channel) != 0)
-                return SE_EXIT_USAGE;
-            continue;
-        }
-        if ((got = se_cli_value(&c, "--pulse-channel", &v)) != 0) {
-            if (got < 0 || se_cli_uint("--pulse-channel", v, 1, 65535, &pulse_channel) != 0)
-                return SE_EXIT_USAGE;
-            continue;
-        }
+        SE_TAKE_UINT("--channel", 1, 65535, channel)
+        SE_TAKE_UINT("--pulse-channel", 1, 65535, pulse_channel)
         if ((got = se_cli_value(&c, "--false-alarms", &v)) != 0) {
             char *end;
             if (got < 0)

@@ -82,16 +82,8 @@ int se_cmd_compare(int argc, char **argv)
         SE_TAKE("--plot", plot)
         SE_TAKE("--json", json)
         SE_TAKE("--units", units)
-        if ((got = se_cli_value(&c, "--channel", &v)) != 0) {
-            if (got < 0 || se_cli_uint("--channel", v, 1, 65535, &channel) != 0)
-                return SE_EXIT_USAGE;
-            continue;
-        }
-        if ((got = se_cli_value(&c, "--pulse-channel", &v)) != 0) {
-            if (got < 0 || se_cli_uint("--pulse-channel", v, 1, 65535, &pulse_channel) != 0)
-                return SE_EXIT_USAGE;
-            continue;
-        }
+        SE_TAKE_UINT("--channel", 1, 65535, channel)
+        SE_TAKE_UINT("--pulse-channel", 1, 65535, pulse_channel)
         if ((got = se_cli_value(&c, "--false-alarms", &v)) != 0) {
             char *end;
             if (got < 0)

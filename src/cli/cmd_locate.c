@@ -204,30 +204,14 @@ int se_cmd_locate(int argc, char **argv)
         SE_TAKE("--report", report)
         SE_TAKE("--csv", csv)
         SE_TAKE("--title", title)
-        if ((got = se_cli_value(&c, "--channel", &v)) != 0) {
-            if (got < 0 || se_cli_uint("--channel", v, 1, 65535, &channel) != 0)
-                return SE_EXIT_USAGE;
-            continue;
-        }
-        if ((got = se_cli_value(&c, "--pulse-channel", &v)) != 0) {
-            if (got < 0 || se_cli_uint("--pulse-channel", v, 1, 65535, &pulse_channel) != 0)
-                return SE_EXIT_USAGE;
-            continue;
-        }
-        if ((got = se_cli_value(&c, "--memory-limit", &v)) != 0) {
-            if (got < 0 || se_cli_uint("--memory-limit", v, 1, 1048576, &mem_mib) != 0)
-                return SE_EXIT_USAGE;
-            continue;
-        }
+        SE_TAKE_UINT("--channel", 1, 65535, channel)
+        SE_TAKE_UINT("--pulse-channel", 1, 65535, pulse_channel)
+        SE_TAKE_UINT("--memory-limit", 1, 1048576, mem_mib)
         if (se_cli_flag(&c, "--stream")) {
             stream = 1;
             continue;
         }
-        if ((got = se_cli_value(&c, "--max-events", &v)) != 0) {
-            if (got < 0 || se_cli_uint("--max-events", v, 1, 10000, &max_events) != 0)
-                return SE_EXIT_USAGE;
-            continue;
-        }
+        SE_TAKE_UINT("--max-events", 1, 10000, max_events)
         if ((got = se_cli_value(&c, "--false-alarms", &v)) != 0) {
             char *end;
             if (got < 0)

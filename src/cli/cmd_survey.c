@@ -191,11 +191,7 @@ int se_cmd_survey(int argc, char **argv)
         SE_TAKE("--units", units)
         SE_TAKE("--title", title)
         SE_TAKE("--shard", shard)
-        if ((got = se_cli_value(&c, "--jobs", &v)) != 0) {
-            if (got < 0 || se_cli_uint("--jobs", v, 1, 256, &jobs) != 0)
-                return SE_EXIT_USAGE;
-            continue;
-        }
+        SE_TAKE_UINT("--jobs", 1, 256, jobs)
         if (se_cli_flag(&c, "--quiet")) {
             c.quiet = 1;
             continue;
