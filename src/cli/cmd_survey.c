@@ -51,19 +51,26 @@ static void se_progress(void *user, size_t done, size_t total)
 }
 
 /* The change note of an item, for the terminal table (the report writes se_compare_sentence's). */
-static void se_change_note(const se_survey_item *it, const char *u, double k, char *buf, size_t size)
+static void se_change_note(const se_survey_item *it, const char *when, const char *u, double k,
+                           char *buf, size_t size)
 {
     const se_compare_result *cr = &it->compare;
+    char since[128];
     size_t i, len;
+    /* the report's words: "since the 2025 survey" with a baseline_date, else "since the baseline" */
+    if (when != NULL)
+        snprintf(since, sizeof since, "since the %s survey", when);
+    else
+        snprintf(since, sizeof since, "since the baseline");
     if (!it->compared) {
         snprintf(buf, size, "no baseline");
         return;
     }
     if (cr->n_faults == 0) {
-        snprintf(buf, size, "no change since the baseline (speed %+.2f %%)", cr->speed_change * 100.0);
+        snprintf(buf, size, "no change %s (speed %+.2f %%)", since, cr->speed_change * 100.0);
         return;
     }
-    snprintf(buf, size, "since the baseline (speed %+.2f %%):", cr->speed_change * 100.0);
+    snprintf(buf, size, "%s (speed %+.2f %%):", since, cr->speed_change * 100.0);
     for (i = 0; i < cr->n_changes; i++) {
         const se_change *ch = &cr->changes[i];
         if (ch->secondary)
@@ -301,7 +308,7 @@ int se_cmd_survey(int argc, char **argv)
             }
             if (farthest >= 0.0)
                 snprintf(far, sizeof far, "%.1f %s", farthest * k, u);
-            se_change_note(it, u, k, note, sizeof note);
+            se_change_note(it, sl->baseline_date, u, k, note, sizeof note);
             if (unexp > 0) {
                 size_t len = strlen(note);
                 snprintf(note + len, sizeof note - len, "; %zu UNEXPECTED", unexp);
