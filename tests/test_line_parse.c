@@ -23,6 +23,10 @@ typedef struct bad_case {
 
 static const bad_case bad_cases[] = {
     {"YAML syntax", HEAD "segments: [a\n", SE_ERR_FORMAT, "t.yaml:5:1:", "YAML syntax"},
+    {"second document", HEAD SEG_A "    tension: 1 kN\nend: fixed\n---\nline: other\n", SE_ERR_FORMAT,
+     "t.yaml:11:1:", "a second YAML document: a line file describes one line"},
+    {"syntax error in a second document", HEAD SEG_A "    tension: 1 kN\nend: fixed\n---\nline: [a\n",
+     SE_ERR_FORMAT, "t.yaml:12:1:", "YAML syntax"},
     {"unknown segment key with suggestion", HEAD SEG_A "    tensoin: 10 kN\nend: fixed\n", SE_ERR_FORMAT,
      "t.yaml:8:5:", "unknown key 'tensoin' in a segment (did you mean 'tension'?)"},
     {"unknown top key with suggestion", HEAD "segmnets: []\nend: fixed\n", SE_ERR_FORMAT, "t.yaml:4:1:",

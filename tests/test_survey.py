@@ -189,6 +189,11 @@ def main():
         rc, _, se = run(["survey", "bad.yaml"], tmp)
         check(rc == 3 and "bad.yaml:5:5" in se and "speeed" in se,
               "unknown key named with FILE:LINE:COLUMN, exit 3 (%d %s)" % (rc, se))
+        with open(os.path.join(tmp, "two.yaml"), "w") as f:
+            f.write("lines:\n  - recording: legs/a.wav\n    speed: 100\n---\nlines: []\n")
+        rc, _, se = run(["survey", "two.yaml"], tmp)
+        check(rc == 3 and "two.yaml:5:1" in se and "second YAML document" in se,
+              "a second YAML document is refused, not ignored (%d %s)" % (rc, se))
         with open(os.path.join(tmp, "nobase.yaml"), "w") as f:
             f.write("lines:\n  - recording: legs/a.wav\n    speed: 100\n    baseline_date: 2025\n")
         rc, _, se = run(["survey", "nobase.yaml"], tmp)

@@ -529,6 +529,30 @@ se_line *se_line_parse_string(const char *text, const char *name_for_messages, s
     }
     line = se_lp_document(&p);
     yaml_document_delete(&doc);
+    /* one file, one line: a second document ("---") would otherwise be ignored without a word */
+    if (line != NULL) {
+        if (!yaml_parser_load(&parser, &doc)) {
+            const yaml_mark_t *m = parser.problem != NULL ? &parser.problem_mark : &parser.mark;
+            se_fail(err, SE_ERR_FORMAT, "%s:%lu:%lu: YAML syntax: %s%s%s", p.src,
+                    (unsigned long)m->line + 1, (unsigned long)m->column + 1,
+                    parser.problem != NULL ? parser.problem : "malformed document",
+                    parser.context != NULL ? " " : "", parser.context != NULL ? parser.context : "");
+            se_line_free(line);
+            line = NULL;
+        } else {
+            const yaml_node_t *root = yaml_document_get_root_node(&doc);
+            if (root != NULL) {
+                se_fail(err, SE_ERR_FORMAT,
+                        "%s:%lu:%lu: a second YAML document: a line file describes one line (put "
+                        "each line in its own file)",
+                        p.src, (unsigned long)root->start_mark.line + 1,
+                        (unsigned long)root->start_mark.column + 1);
+                se_line_free(line);
+                line = NULL;
+            }
+            yaml_document_delete(&doc);
+        }
+    }
     yaml_parser_delete(&parser);
     return line;
 }

@@ -397,6 +397,31 @@ se_survey *se_survey_parse_string(const char *text, const char *base_dir, const 
         yaml_parser_delete(&parser);
         return NULL;
     }
+    {
+        /* one file, one survey: a second document ("---") would otherwise be ignored */
+        yaml_document_t next;
+        int loaded = yaml_parser_load(&parser, &next);
+        const yaml_node_t *r2 = loaded ? yaml_document_get_root_node(&next) : NULL;
+        if (!loaded || r2 != NULL) {
+            if (!loaded)
+                se_fail(err, SE_ERR_FORMAT, "%s:%lu:%lu: YAML syntax: %s", p.name,
+                        (unsigned long)parser.problem_mark.line + 1,
+                        (unsigned long)parser.problem_mark.column + 1,
+                        parser.problem ? parser.problem : "error");
+            else
+                se_fail(err, SE_ERR_FORMAT,
+                        "%s:%lu:%lu: a second YAML document: a survey file holds one survey (put "
+                        "every line under its 'lines')",
+                        p.name, (unsigned long)r2->start_mark.line + 1,
+                        (unsigned long)r2->start_mark.column + 1);
+            if (loaded)
+                yaml_document_delete(&next);
+            yaml_document_delete(&doc);
+            yaml_parser_delete(&parser);
+            return NULL;
+        }
+        yaml_document_delete(&next);
+    }
     yaml_parser_delete(&parser);
     root = yaml_document_get_root_node(&doc);
     if (root == NULL) {
