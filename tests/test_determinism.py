@@ -1,7 +1,7 @@
 #!/usr/bin/python3
 """Determinism: the same inputs and options give byte-identical outputs, run after run and
-whatever the working folder, locale or environment size (JSON from locate; CSV and WAV from
-simulate, noise included, for a fixed seed)."""
+whatever the working folder, locale, time zone or environment size (JSON, PDF, SVG and PNG plots
+and the HTML report from locate; CSV and WAV from simulate, noise included, for a fixed seed)."""
 import os
 import shutil
 import subprocess
@@ -39,6 +39,7 @@ def same(name, paths):
 
 
 def main():
+    global failures
     if not CLI or not os.access(CLI, os.X_OK):
         print("SE_CLI not set: skipped")
         return 77
@@ -60,13 +61,24 @@ def main():
         same("locate JSON", [os.path.join(d, "out.json") for d in dirs])
         stdout = [run(loc[:-3] + ["--json", "-"], d).stdout for d in dirs[:2]]
         if stdout[0] != stdout[1] or not stdout[0]:
-            global failures
             failures += 1
             print("FAIL locate JSON on standard output differs between runs")
         with open(os.path.join(dirs[0], "out.json"), "rb") as f:
             if f.read() != stdout[0]:
                 failures += 1
                 print("FAIL --json - and --json FILE differ")
+        # the plots and the report carry no time of writing (a PDF's /CreationDate is left out)
+        outs = ["plot.pdf", "plot.svg", "plot.png", "report.html"]
+        for d, e in zip(dirs, envs):
+            run(loc[:-2] + ["--plot", "plot.pdf", "--report", "report.html"], d, e)
+            run(loc[:-2] + ["--plot", "plot.svg"], d, e)
+            run(loc[:-2] + ["--plot", "plot.png"], d, e)
+        for o in outs:
+            same("locate " + o, [os.path.join(d, o) for d in dirs])
+        with open(os.path.join(dirs[0], "plot.pdf"), "rb") as f:
+            if b"/CreationDate" in f.read():
+                failures += 1
+                print("FAIL the PDF carries a creation date")
         sim = ["simulate", "--quiet", "--tension", "100 kN", "--mass-per-length", "5 kg/m", "--pulse",
                "hann:20ms", "--rate", "8000", "--duration", "0.6", "--reflector", "42.7m:-0.35",
                "--end", "70m:fixed", "--noise", "0.01", "--seed", "11"]
@@ -81,7 +93,7 @@ def main():
             print("FAIL the printed table differs between runs")
     finally:
         shutil.rmtree(tmp, ignore_errors=True)
-    print("%d passed, %d failed" % (max(0, 6 - failures), failures))
+    print("%d passed, %d failed" % (max(0, 11 - failures), failures))
     return 1 if failures else 0
 
 

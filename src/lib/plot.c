@@ -1297,6 +1297,10 @@ se_status se_plot_write(const se_plot_data *data, const char *path, se_plot_form
             se_output_abort(out);
             return se_fail(err, SE_ERR_NOMEM, "%s: cairo surface: %s", path, cairo_status_to_string(cs));
         }
+        /* no time of writing in the file: an empty date makes cairo leave /CreationDate out, so
+         * the same data gives the same bytes (as the SVG, PNG and HTML outputs) */
+        if (fmt != SE_PLOT_PNG)
+            cairo_pdf_surface_set_metadata(surf, CAIRO_PDF_METADATA_CREATE_DATE, "");
         cv.cr = cairo_create(surf);
         cv.measure = se_measure_create();
         if (cv.measure == NULL || cairo_status(cv.cr) != CAIRO_STATUS_SUCCESS) {
