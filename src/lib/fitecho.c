@@ -25,6 +25,7 @@ struct se_echo_model {
     double *val;   /* s(i/U), i = 0..P U - 1 */
     double *der;   /* s'(i/U) per sample */
     double *raw;   /* the samples themselves [size: m] */
+    double *acf;   /* R[d] = sum_j s[j] s[j + d], d = 0..m-1 [size: m] */
     double energy; /* sum s^2 */
 };
 
@@ -45,6 +46,17 @@ typedef struct se_fit_state {
     int ok;
 } se_fit_state;
 
+/* What the searches of one call share. */
+typedef struct se_fit_work {
+    const se_fit_problem *pr;
+    double sigma;   /* cfg->sigma */
+    double min_amp; /* cfg->min_amplitude */
+    double min_sep;
+    size_t maxk;
+    se_echo *trial; /* scratch [size: maxk + 1] */
+    double *res;    /* scratch [size: nwin] */
+} se_fit_work;
+
 static int se_fit_f(const gsl_vector *p, void *data, gsl_vector *f);
 static int se_fit_df(const gsl_vector *p, void *data, gsl_matrix *J);
 static int se_fit_run(const se_fit_problem *pr, const se_echo *init, size_t k, double sigma,
@@ -52,6 +64,11 @@ static int se_fit_run(const se_fit_problem *pr, const se_echo *init, size_t k, d
 static double se_fit_bic(double rss, size_t n, size_t k, double sigma);
 static int se_echo_cmp(const void *a, const void *b);
 static void se_state_free(se_fit_state *s);
+static int se_fit_search(const se_fit_work *wk, se_fit_state *cur, se_error *err);
+static double se_fit_residual_peak(const se_fit_work *wk, const se_fit_state *cur, long *lag);
+static int se_fit_best_pair(const se_fit_work *wk, double lo_lag, double hi_lag, se_echo pair[2]);
+static int se_fit_start(const se_fit_work *wk, se_echo *init, size_t k, se_fit_state *cur,
+                        se_error *err);
 
 se_echo_model *se_echo_model_create(const double *pulse, size_t m, se_error *err)
 {
@@ -59,7 +76,7 @@ se_echo_model *se_echo_model_create(const double *pulse, size_t m, se_error *err
     size_t P = 64, U = SE_FIT_OVERSAMPLE, F, i, nb, nf;
     double *tin = NULL, *tout = NULL, energy = 0.0;
     fftw_complex *spec = NULL, *fspec = NULL;
-    fftw_plan pf = NULL, pg = NULL;
+    fftw_plan pf = NULL, pg = NULL, pa = NULL;
 
     if (pulse == NULL || m < 2) {
         se_fail(err, SE_ERR_ARG, "echo model: the pulse has fewer than 2 samples");
@@ -96,11 +113,13 @@ se_echo_model *se_echo_model_create(const double *pulse, size_t m, se_error *err
     mdl->val = se_calloc(F, sizeof *mdl->val, "echo model table", err);
     mdl->der = se_calloc(F, sizeof *mdl->der, "echo model table", err);
     mdl->raw = se_calloc(m, sizeof *mdl->raw, "echo model pulse", err);
+    mdl->acf = se_calloc(m, sizeof *mdl->acf, "echo model pulse", err);
     tin = fftw_malloc(P * sizeof *tin);
     tout = fftw_malloc(F * sizeof *tout);
     spec = fftw_malloc((P / 2 + 1) * sizeof *spec);
     fspec = fftw_malloc((F / 2 + 1) * sizeof *fspec);
-    if (mdl->val == NULL || mdl->der == NULL || mdl->raw == NULL || tin == NULL || tout == NULL ||
+    if (mdl->val == NULL || mdl->der == NULL || mdl->raw == NULL || mdl->acf == NULL ||
+        tin == NULL || tout == NULL ||
         spec == NULL || fspec == NULL) {
         se_fail(err, SE_ERR_NOMEM, "echo model: cannot allocate the %zu-point tables", F);
         goto fail;
@@ -108,7 +127,8 @@ se_echo_model *se_echo_model_create(const double *pulse, size_t m, se_error *err
     memcpy(mdl->raw, pulse, m * sizeof *pulse);
     pf = fftw_plan_dft_r2c_1d((int)P, tin, spec, FFTW_ESTIMATE);
     pg = fftw_plan_dft_c2r_1d((int)F, fspec, tout, FFTW_ESTIMATE);
-    if (pf == NULL || pg == NULL) {
+    pa = fftw_plan_dft_c2r_1d((int)P, spec, tin, FFTW_ESTIMATE);
+    if (pf == NULL || pg == NULL || pa == NULL) {
         se_fail(err, SE_ERR_NOMEM, "echo model: FFT planning failed");
         goto fail;
     }
@@ -146,8 +166,17 @@ se_echo_model *se_echo_model_create(const double *pulse, size_t m, se_error *err
         fftw_execute(pg);
         memcpy(i == 0 ? mdl->val : mdl->der, tout, F * sizeof *tout);
     }
+    /* R[d] = (1/P) sum_k |S_k|^2 e^{2 pi i k d / P}: P >= 4 m, so no wrap-around for d < m */
+    for (i = 0; i < nb; i++) {
+        spec[i][0] = spec[i][0] * spec[i][0] + spec[i][1] * spec[i][1];
+        spec[i][1] = 0.0;
+    }
+    fftw_execute(pa);
+    for (i = 0; i < m; i++)
+        mdl->acf[i] = tin[i] / (double)P;
     fftw_destroy_plan(pf);
     fftw_destroy_plan(pg);
+    fftw_destroy_plan(pa);
     fftw_free(tin);
     fftw_free(tout);
     fftw_free(spec);
@@ -158,6 +187,8 @@ fail:
         fftw_destroy_plan(pf);
     if (pg != NULL)
         fftw_destroy_plan(pg);
+    if (pa != NULL)
+        fftw_destroy_plan(pa);
     fftw_free(tin);
     fftw_free(tout);
     fftw_free(spec);
@@ -173,6 +204,7 @@ void se_echo_model_destroy(se_echo_model *mdl)
     free(mdl->val);
     free(mdl->der);
     free(mdl->raw);
+    free(mdl->acf);
     free(mdl);
 }
 
@@ -370,16 +402,235 @@ static int se_fit_run(const se_fit_problem *pr, const se_echo *init, size_t k, d
     return 0;
 }
 
+
+/* The largest correlation of the residual of cur (x itself when cur has no echo) with the pulse
+ * at an integer lag, in amplitude units (c / E_s); *lag receives that lag. */
+static double se_fit_residual_peak(const se_fit_work *wk, const se_fit_state *cur, long *lag)
+{
+    const se_fit_problem *pr = wk->pr;
+    const se_echo_model *mdl = pr->mdl;
+    size_t i, m = mdl->m, nw = pr->nwin;
+    long b = (long)pr->begin, e = b + (long)nw, lo, hi, kk;
+    double best = 0.0;
+
+    for (i = 0; i < nw; i++)
+        wk->res[i] = pr->x[i];
+    for (i = 0; i < cur->k; i++) {
+        double a = cur->e[i].amplitude, t0 = pr->begin - cur->e[i].lag;
+        size_t j;
+        for (j = 0; j < nw; j++) {
+            double t = t0 + (double)j;
+            if (t < -2.0 || t > (double)m + 1.0)
+                continue;
+            wk->res[j] -= a * se_echo_model_value(mdl, t, NULL);
+        }
+    }
+    lo = b - (long)(m / 2);
+    hi = e - (long)(m / 2);
+    *lag = lo;
+    for (kk = lo; kk < hi; kk++) {
+        double c = 0.0;
+        size_t j;
+        for (j = 0; j < m; j++) {
+            long t = kk + (long)j;
+            if (t >= b && t < e)
+                c += wk->res[t - b] * mdl->raw[j];
+        }
+        c /= mdl->energy;
+        if (fabs(c) > fabs(best)) {
+            best = c;
+            *lag = kk;
+        }
+    }
+    return best;
+}
+
+/* The two echoes at integer lags in [lo_lag - m/2, hi_lag + m/2] (whole pulse inside the window)
+ * that explain most of x by linear least squares: with c_t = <x, s_t>, R = R[|t1 - t2|] and
+ * E = R[0], the residual falls by (E c1^2 + E c2^2 - 2 R c1 c2) / (E^2 - R^2). Exhaustive over
+ * the pairs closer than a pulse length: a global start that no greedy pick can mislead (two
+ * same-sign echoes whose side lobes add up between them). Returns 1 and pair[] (sorted), or 0. */
+static int se_fit_best_pair(const se_fit_work *wk, double lo_lag, double hi_lag, se_echo pair[2])
+{
+    const se_fit_problem *pr = wk->pr;
+    const se_echo_model *mdl = pr->mdl;
+    long m = (long)mdl->m, b = (long)pr->begin, e = b + (long)pr->nwin, t0, t1, t, d, L;
+    double E = mdl->acf[0], best = 0.0, *c;
+    int found = 0;
+
+    t0 = (long)floor(lo_lag - 0.5 * (double)m);
+    t1 = (long)ceil(hi_lag + 0.5 * (double)m);
+    if (t0 < b)
+        t0 = b;
+    if (t1 > e - m)
+        t1 = e - m;
+    if (t1 - t0 < 1)
+        return 0;
+    L = t1 - t0 + 1;
+    if ((size_t)L > pr->nwin)
+        return 0;
+    c = wk->res; /* scratch: c_t for t = t0..t1 */
+    for (t = 0; t < L; t++) {
+        long j;
+        double acc = 0.0;
+        const double *xs = pr->x + (t0 + t - b);
+        for (j = 0; j < m; j++)
+            acc += xs[j] * mdl->raw[j];
+        c[t] = acc;
+    }
+    for (t = 0; t < L; t++)
+        for (d = 1; d < m && t + d < L; d++) {
+            double R = mdl->acf[d], det = E * E - R * R, c1 = c[t], c2 = c[t + d], q;
+            if (!(det > 1e-6 * E * E))
+                continue;
+            q = (E * (c1 * c1 + c2 * c2) - 2.0 * R * c1 * c2) / det;
+            if (q > best) {
+                best = q;
+                pair[0].lag = (double)(t0 + t);
+                pair[1].lag = (double)(t0 + t + d);
+                pair[0].amplitude = (E * c1 - R * c2) / det;
+                pair[1].amplitude = (E * c2 - R * c1) / det;
+                found = 1;
+            }
+        }
+    if (found) {
+        pair[0].lag_sd = pair[1].lag_sd = pair[0].amplitude_sd = pair[1].amplitude_sd = 0.0;
+        pair[0].corr = pair[1].corr = 0.0;
+    }
+    return found;
+}
+
+/* Fit from init [size: k] (sorted here) and run the stepwise search. cur->ok = 0 when the first
+ * fit fails. Returns 0, or -1 on allocation failure. */
+static int se_fit_start(const se_fit_work *wk, se_echo *init, size_t k, se_fit_state *cur,
+                        se_error *err)
+{
+    qsort(init, k, sizeof *init, se_echo_cmp);
+    if (se_fit_run(wk->pr, init, k, wk->sigma, wk->min_sep, cur, err) != 0)
+        return -1;
+    if (!cur->ok)
+        return 0;
+    return se_fit_search(wk, cur, err);
+}
+
+/* From the fitted cur: add an echo where the residual correlates best with the pulse, or remove
+ * the echo whose removal is best, while BIC falls; then drop echoes failing the amplitude tests.
+ * cur keeps ok = 1 with k >= 0 echoes (k = 0: e NULL, rss and bic of the empty model).
+ * Returns 0, or -1 on allocation failure (cur freed). */
+static int se_fit_search(const se_fit_work *wk, se_fit_state *cur, se_error *err)
+{
+    const se_fit_problem *pr = wk->pr;
+    se_echo *trial = wk->trial;
+    se_fit_state cand;
+    int improved;
+    size_t i;
+
+    do {
+        improved = 0;
+        if (cur->k < wk->maxk) {
+            long kb;
+            double best = se_fit_residual_peak(wk, cur, &kb);
+            if (best != 0.0) {
+                memcpy(trial, cur->e, cur->k * sizeof *trial);
+                trial[cur->k].lag = (double)kb;
+                trial[cur->k].amplitude = best;
+                qsort(trial, cur->k + 1, sizeof *trial, se_echo_cmp);
+                if (se_fit_run(pr, trial, cur->k + 1, wk->sigma, wk->min_sep, &cand, err) != 0)
+                    goto nomem;
+                if (cand.ok && cand.bic < cur->bic) {
+                    se_state_free(cur);
+                    *cur = cand;
+                    improved = 1;
+                } else {
+                    se_state_free(&cand);
+                }
+            }
+        }
+        if (!improved && cur->k > 1) {
+            se_fit_state best;
+            size_t drop;
+            memset(&best, 0, sizeof best);
+            for (drop = 0; drop < cur->k; drop++) {
+                size_t j, q = 0;
+                for (j = 0; j < cur->k; j++)
+                    if (j != drop)
+                        trial[q++] = cur->e[j];
+                if (se_fit_run(pr, trial, cur->k - 1, wk->sigma, wk->min_sep, &cand, err) != 0) {
+                    se_state_free(&best);
+                    goto nomem;
+                }
+                if (cand.ok && (!best.ok || cand.bic < best.bic)) {
+                    se_state_free(&best);
+                    best = cand;
+                } else {
+                    se_state_free(&cand);
+                }
+            }
+            if (best.ok && best.bic < cur->bic) {
+                se_state_free(cur);
+                *cur = best;
+                improved = 1;
+            } else {
+                se_state_free(&best);
+            }
+        }
+    } while (improved);
+
+    /* Amplitude tests: drop the weakest failing echo and refit, until all pass. */
+    for (;;) {
+        size_t worst = SIZE_MAX, j, q = 0;
+        double wz = INFINITY;
+        for (j = 0; j < cur->k; j++) {
+            double a = fabs(cur->e[j].amplitude), zz = a / fmax(cur->e[j].amplitude_sd, 1e-300);
+            if ((a < wk->min_amp || zz < 3.0) && zz < wz) {
+                wz = zz;
+                worst = j;
+            }
+        }
+        if (worst == SIZE_MAX)
+            break;
+        if (cur->k > 1) {
+            for (j = 0; j < cur->k; j++)
+                if (j != worst)
+                    trial[q++] = cur->e[j];
+            if (se_fit_run(pr, trial, q, wk->sigma, wk->min_sep, &cand, err) != 0)
+                goto nomem;
+            se_state_free(cur);
+            if (cand.ok) {
+                *cur = cand;
+                continue;
+            }
+        } else {
+            se_state_free(cur);
+        }
+        break;
+    }
+    if (cur->k == 0) {
+        double rss = 0.0;
+        for (i = 0; i < pr->nwin; i++)
+            rss += pr->x[i] * pr->x[i];
+        cur->e = NULL;
+        cur->rss = rss;
+        cur->bic = se_fit_bic(rss, pr->nwin, 0, wk->sigma);
+    }
+    cur->ok = 1;
+    return 0;
+nomem:
+    se_state_free(cur);
+    cur->ok = 0;
+    return -1;
+}
+
 se_status se_fitecho(const se_echo_model *mdl, const double *x, size_t n,
                      const se_fitecho_config *cfg, const se_echo *init, size_t n_init,
                      se_echo **out, size_t *n_out, double *bic, double *sigma_used, se_error *err)
 {
     se_fit_problem pr;
+    se_fit_work wk;
     se_fit_state cur, cand;
-    se_echo *trial = NULL;
-    double *res = NULL, lo_lag, hi_lag, min_sep;
-    size_t b, e, i, maxk, m;
-    int improved;
+    se_echo *trial = NULL, pair[2];
+    double *res = NULL, lo_lag, hi_lag;
+    size_t b, e, i, maxk, m, s;
 
     if (mdl == NULL || x == NULL || cfg == NULL || init == NULL || out == NULL || n_out == NULL)
         return se_fail(err, SE_ERR_ARG, "echo fit: missing argument");
@@ -391,7 +642,6 @@ se_status se_fitecho(const se_echo_model *mdl, const double *x, size_t n,
     maxk = cfg->max_echoes ? cfg->max_echoes : 6;
     if (n_init > maxk)
         maxk = n_init;
-    min_sep = cfg->min_separation > 0.0 ? cfg->min_separation : 0.1;
     lo_lag = hi_lag = init[0].lag;
     for (i = 0; i < n_init; i++) {
         if (!isfinite(init[i].lag) || !isfinite(init[i].amplitude))
@@ -418,133 +668,74 @@ se_status se_fitecho(const se_echo_model *mdl, const double *x, size_t n,
     pr.nwin = e - b;
     pr.begin = (double)b;
 
-    trial = se_calloc(maxk + 1, sizeof *trial, "echo fit", err);
+    trial = se_calloc(maxk + 2, sizeof *trial, "echo fit", err);
     res = se_calloc(e - b, sizeof *res, "echo fit residual", err);
     if (trial == NULL || res == NULL) {
         free(trial);
         free(res);
         return SE_ERR_NOMEM;
     }
-    memcpy(trial, init, n_init * sizeof *init);
-    qsort(trial, n_init, sizeof *trial, se_echo_cmp);
-    if (se_fit_run(&pr, trial, n_init, cfg->sigma, min_sep, &cur, err) != 0)
-        goto nomem;
-    if (!cur.ok) {
-        free(trial);
-        free(res);
-        return se_fail(err, SE_ERR_NUMERIC,
-                       "echo fit: the %zu-echo fit near lag %.1f did not converge", n_init, lo_lag);
-    }
+    wk.pr = &pr;
+    wk.sigma = cfg->sigma;
+    wk.min_amp = cfg->min_amplitude;
+    wk.min_sep = cfg->min_separation > 0.0 ? cfg->min_separation : 0.1;
+    wk.maxk = maxk;
+    wk.trial = trial;
+    wk.res = res;
 
-    do {
-        improved = 0;
-        /* add: where the residual correlates best with the pulse */
-        if (cur.k < maxk) {
-            gsl_vector_view fv;
-            gsl_vector *pv = gsl_vector_alloc(2 * cur.k);
-            double best = 0.0;
-            long kb = 0, lo, hi, kk;
-            if (pv == NULL)
+    /* Three starts, each followed by the same stepwise search; the lowest BIC wins (a later start
+     * only when strictly lower, so the greedy start keeps its answer on ties):
+     *  0. the given (greedy, CLEAN) echoes;
+     *  1. one echo at the largest matched-filter output of the window;
+     *  2. the best pair of integer lags by linear least squares (se_fit_best_pair). */
+    memset(&cur, 0, sizeof cur);
+    for (s = 0; s < 3; s++) {
+        se_echo *ini;
+        size_t k;
+        long kb;
+        if (s == 0) {
+            ini = se_calloc(n_init, sizeof *ini, "echo fit", err);
+            if (ini == NULL)
                 goto nomem;
-            for (i = 0; i < cur.k; i++) {
-                gsl_vector_set(pv, 2 * i, cur.e[i].amplitude);
-                gsl_vector_set(pv, 2 * i + 1, cur.e[i].lag);
+            memcpy(ini, init, n_init * sizeof *init);
+            k = n_init;
+            if (se_fit_start(&wk, ini, k, &cand, err) != 0) {
+                free(ini);
+                goto nomem;
             }
-            fv = gsl_vector_view_array(res, e - b);
-            se_fit_f(pv, &pr, &fv.vector);
-            gsl_vector_free(pv);
-            lo = (long)b - (long)(m / 2);
-            hi = (long)e - (long)(m / 2);
-            for (kk = lo; kk < hi; kk++) {
-                double c = 0.0;
-                size_t j;
-                for (j = 0; j < m; j++) {
-                    long t = kk + (long)j;
-                    if (t >= (long)b && t < (long)e)
-                        c += res[t - (long)b] * mdl->raw[j];
-                }
-                c /= mdl->energy;
-                if (fabs(c) > fabs(best)) {
-                    best = c;
-                    kb = kk;
-                }
-            }
-            if (best != 0.0) {
-                memcpy(trial, cur.e, cur.k * sizeof *trial);
-                trial[cur.k].lag = (double)kb;
-                trial[cur.k].amplitude = best;
-                qsort(trial, cur.k + 1, sizeof *trial, se_echo_cmp);
-                if (se_fit_run(&pr, trial, cur.k + 1, cfg->sigma, min_sep, &cand, err) != 0)
-                    goto nomem;
-                if (cand.ok && cand.bic < cur.bic) {
-                    se_state_free(&cur);
-                    cur = cand;
-                    improved = 1;
-                } else {
-                    se_state_free(&cand);
-                }
-            }
-        }
-        /* remove: the best model with one echo fewer */
-        if (!improved && cur.k > 1) {
-            se_fit_state best;
-            size_t drop;
-            memset(&best, 0, sizeof best);
-            for (drop = 0; drop < cur.k; drop++) {
-                size_t j, q = 0;
-                for (j = 0; j < cur.k; j++)
-                    if (j != drop)
-                        trial[q++] = cur.e[j];
-                if (se_fit_run(&pr, trial, cur.k - 1, cfg->sigma, min_sep, &cand, err) != 0) {
-                    se_state_free(&best);
-                    goto nomem;
-                }
-                if (cand.ok && (!best.ok || cand.bic < best.bic)) {
-                    se_state_free(&best);
-                    best = cand;
-                } else {
-                    se_state_free(&cand);
-                }
-            }
-            if (best.ok && best.bic < cur.bic) {
-                se_state_free(&cur);
-                cur = best;
-                improved = 1;
+            free(ini);
+        } else {
+            if (s == 1) {
+                se_fit_state none;
+                memset(&none, 0, sizeof none);
+                memset(pair, 0, sizeof pair);
+                pair[0].amplitude = se_fit_residual_peak(&wk, &none, &kb);
+                pair[0].lag = (double)kb;
+                k = 1;
+                if (pair[0].amplitude == 0.0)
+                    continue;
             } else {
-                se_state_free(&best);
+                if (maxk < 2 || !se_fit_best_pair(&wk, lo_lag, hi_lag, pair))
+                    continue;
+                k = 2;
             }
+            if (se_fit_start(&wk, pair, k, &cand, err) != 0)
+                goto nomem;
         }
-    } while (improved);
-
-    /* Amplitude tests: drop the weakest failing echo and refit, until all pass. */
-    for (;;) {
-        size_t worst = SIZE_MAX, j, q = 0;
-        double wz = INFINITY;
-        for (j = 0; j < cur.k; j++) {
-            double a = fabs(cur.e[j].amplitude), zz = a / fmax(cur.e[j].amplitude_sd, 1e-300);
-            if ((a < cfg->min_amplitude || zz < 3.0) && zz < wz) {
-                wz = zz;
-                worst = j;
-            }
-        }
-        if (worst == SIZE_MAX)
-            break;
-        if (cur.k == 1) {
-            se_state_free(&cur);
-            break;
-        }
-        for (j = 0; j < cur.k; j++)
-            if (j != worst)
-                trial[q++] = cur.e[j];
-        if (se_fit_run(&pr, trial, q, cfg->sigma, min_sep, &cand, err) != 0)
-            goto nomem;
-        se_state_free(&cur);
         if (!cand.ok)
-            break;
-        cur = cand;
+            continue;
+        if (!cur.ok || cand.bic < cur.bic - 1e-9 * fmax(1.0, fabs(cur.bic))) {
+            se_state_free(&cur);
+            cur = cand;
+        } else {
+            se_state_free(&cand);
+        }
     }
     free(trial);
     free(res);
+    if (!cur.ok)
+        return se_fail(err, SE_ERR_NUMERIC,
+                       "echo fit: no fit of the %zu echoes near lag %.1f converged", n_init, lo_lag);
     *out = cur.e;
     *n_out = cur.k;
     if (bic != NULL)
