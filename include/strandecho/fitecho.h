@@ -7,7 +7,8 @@
  * a s starting at sample tau gives r(tau) = a). The amplitudes a_k and delays tau_k are fitted by
  * nonlinear least squares (GSL gsl_multifit_nlinear, Levenberg-Marquardt trust region, analytic
  * Jacobian df/da = -s(i - tau), df/dtau = a s'(i - tau)), started from greedy subtraction (CLEAN,
- * se_detect). The number of echoes is chosen by the Bayesian information criterion
+ * se_detect) and from two starts that no greedy pick can mislead (see se_fitecho). The number of
+ * echoes is chosen by the Bayesian information criterion
  *     BIC(K) = RSS_K / sigma^2 + 2 K ln N       (N samples, 2 parameters per echo)
  * (R. Demirli & J. Saniie, IEEE TUFFC 48(3), 2001). The covariance of each echo is
  * sigma^2 (J^T J)^-1 (REFERENCE.md 2, "Overlapping echoes").
@@ -69,12 +70,18 @@ void se_fitecho_config_init(se_fitecho_config *cfg);
 /* Fit x [size: n] in the window with init [size: n_init >= 1] as the starting echoes (lags as
  * above). The number of echoes is then chosen by BIC: an echo is added where the residual's
  * correlation with the pulse is largest, and each echo is tried removed, while BIC falls (echoes
- * failing the amplitude tests are removed). *out: malloc'd array sorted by lag (caller frees),
+ * failing the amplitude tests are removed). The same search is also run from two other starts:
+ * one echo at the largest matched-filter output of the window, and (max_echoes >= 2) the pair of
+ * integer lags within m/2 of the initial echoes' span, closer than m, that explains most of the
+ * window by linear least squares (exhaustive; O(L m) for L candidate lags). The model with the
+ * lowest BIC is kept, the greedy start's on ties. The extra starts matter for an oscillating
+ * pulse: two same-sign echoes add their side lobes between them, and CLEAN's first pick there
+ * leads the search from a comb of false echoes. *out: malloc'd array sorted by lag (caller frees),
  * *n_out its length (>= 1 unless every echo failed the tests, then 0 and *out NULL).
  * *bic (may be NULL): BIC of the chosen model. *sigma_used (may be NULL): the sigma used.
  * Errors: NULL arguments, n_init = 0, a window outside x or shorter than 4 K samples
  * (SE_ERR_ARG); a non-finite x in the window (SE_ERR_DATA, named); allocation (SE_ERR_NOMEM);
- * GSL failure of the first fit (SE_ERR_NUMERIC). */
+ * no start whose first fit converged (SE_ERR_NUMERIC). */
 se_status se_fitecho(const se_echo_model *mdl, const double *x, size_t n,
                      const se_fitecho_config *cfg, const se_echo *init, size_t n_init,
                      se_echo **out, size_t *n_out, double *bic, double *sigma_used, se_error *err);

@@ -3,9 +3,12 @@
  *
  * Ricker pulse f0 = 0.05 cycle/sample (main-lobe half width hw from se_acf_mainlobe_half_width,
  * main-lobe width 2 hw); echoes a1 = 1 at a random fractional lag and a2 at separation
- * s * 2 hw, opposite (a2 = -0.7) or same sign (a2 = +1). The SNR is the energy SNR of the weaker
+ * s * 2 hw, opposite (a2 = -0.7), same sign (a2 = +1) or same sign unequal (a2 = +0.5). The SNR is the energy SNR of the weaker
  * echo. Resolved: exactly two echoes, right signs, each within 4 of its standard uncertainty
  * (CLEAN: the Cramer-Rao bound at its SNR; fit: its covariance) plus 0.05 sample of the truth.
+ * Then the false-split check: a single echo a = 1, fraction of trials giving exactly one echo of
+ * the right sign within the same tolerance, for CLEAN, the fit with the true sigma and the fit with
+ * sigma from its own residual (fc.sigma = 0, as the locator calls it).
  *
  * Usage: bench_resolution [--trials N]  (default 100) */
 #include <gsl/gsl_randist.h>
@@ -25,11 +28,18 @@
 #define BR_N 1024
 
 static double br_ricker(double t);
+static int br_one(const se_echo *fit, size_t no, double lag);
 
 static double br_ricker(double t)
 {
     double u = BR_PI * 0.05 * t;
     return (1.0 - 2.0 * u * u) * exp(-u * u);
+}
+
+/* exactly one positive echo within 4 sd + 0.05 of lag */
+static int br_one(const se_echo *fit, size_t no, double lag)
+{
+    return no == 1 && fit[0].amplitude > 0.0 && fabs(fit[0].lag - lag) <= 4.0 * fit[0].lag_sd + 0.05;
 }
 
 int main(int argc, char **argv)
@@ -69,10 +79,10 @@ int main(int argc, char **argv)
     printf("# command: bench_resolution --trials %zu\n", trials);
     printf("# Ricker f0 = 0.05: main-lobe half width %.3f samples; separation in main-lobe widths (2 hw)\n", hw);
     printf("%-9s %6s %6s %12s %12s\n", "signs", "SNR_dB", "sep", "CLEAN", "CLEAN+fit");
-    for (sg = 0; sg < 2; sg++)
+    for (sg = 0; sg < 3; sg++)
         for (qi = 0; qi < 3; qi++)
             for (si = 0; si < 8; si++) {
-                double a2 = sg == 0 ? -0.7 : 1.0, weak = fmin(1.0, fabs(a2));
+                double a2 = sg == 0 ? -0.7 : (sg == 1 ? 1.0 : 0.5), weak = fmin(1.0, fabs(a2));
                 double sigma = weak * sqrt(es) / pow(10.0, snrs[qi] / 20.0);
                 size_t ok_clean = 0, ok_fit = 0;
                 for (t = 0; t < trials; t++) {
@@ -129,10 +139,59 @@ int main(int argc, char **argv)
                     free(fit);
                     free(pk);
                 }
-                printf("%-9s %6.0f %6.2f %12.3f %12.3f\n", sg == 0 ? "opposite" : "same",
+                printf("%-9s %6.0f %6.2f %12.3f %12.3f\n", sg == 0 ? "opposite" : (sg == 1 ? "same" : "unequal"),
                        snrs[qi], seps[si], (double)ok_clean / (double)trials,
                        (double)ok_fit / (double)trials);
             }
+    printf("\n# single echo a = 1: fraction of trials with exactly one echo (no false split)\n");
+    printf("%6s %12s %12s %12s\n", "SNR_dB", "CLEAN", "fit_sigma", "fit_resid");
+    for (qi = 0; qi < 3; qi++) {
+        double sigma = sqrt(es) / pow(10.0, snrs[qi] / 20.0);
+        size_t ok_clean = 0, ok_fit = 0, ok_res = 0;
+        for (t = 0; t < trials; t++) {
+            double lag = 400.0 + gsl_rng_uniform(rng);
+            se_detect_config dc;
+            se_peak *pk = NULL;
+            size_t np = 0, no = 0, q, pass;
+            se_echo init[8], *fit = NULL;
+            se_fitecho_config fc;
+            for (j = 0; j < BR_N; j++)
+                x[j] = br_ricker((double)j - lag - BR_HALF) + gsl_ran_gaussian(rng, sigma);
+            se_xcorr_run(xc, xw, x, BR_N, r, &err);
+            memset(&dc, 0, sizeof dc);
+            dc.start = 100;
+            dc.end = BR_N - BR_M;
+            dc.threshold = 6.0 * sigma / sqrt(es);
+            dc.acf = acf;
+            if (se_detect(r, BR_N, &dc, &pk, &np, &err) != SE_OK)
+                continue;
+            if (np == 1 && pk[0].amplitude > 0.0 &&
+                fabs(pk[0].lag - lag) <= 4.0 * sigma / sqrt(es) / beta + 0.05)
+                ok_clean++;
+            for (q = 0; q < np && q < 8; q++) {
+                init[q].lag = pk[q].lag;
+                init[q].amplitude = pk[q].amplitude;
+            }
+            for (pass = 0; pass < 2 && np > 0; pass++) {
+                se_fitecho_config_init(&fc);
+                fc.sigma = pass == 0 ? sigma : 0.0;
+                fc.min_amplitude = dc.threshold;
+                if (se_fitecho(mdl, x, BR_N, &fc, init, np < 8 ? np : 8, &fit, &no, NULL, NULL,
+                               &err) == SE_OK &&
+                    br_one(fit, no, lag)) {
+                    if (pass == 0)
+                        ok_fit++;
+                    else
+                        ok_res++;
+                }
+                free(fit);
+                fit = NULL;
+            }
+            free(pk);
+        }
+        printf("%6.0f %12.3f %12.3f %12.3f\n", snrs[qi], (double)ok_clean / (double)trials,
+               (double)ok_fit / (double)trials, (double)ok_res / (double)trials);
+    }
     se_xcorr_work_destroy(xw);
     se_xcorr_destroy(xc);
     se_echo_model_destroy(mdl);
