@@ -131,6 +131,23 @@ size_t se_sim_frames(const se_sim_record *rec);
 se_status se_simulate(const se_sim_line *line, const se_sim_record *rec, double *response,
                       double *pulse, size_t frames, se_error *err);
 
+/* As se_simulate, with skin-effect loss on every arrival: arrival j (time t_j after t0, path length
+ * l_j = speed_m_s t_j on a line of uniform speed) is shaped by H(s) = exp(-a_j sqrt(s)),
+ * a_j = skin_k_s05_per_m l_j (skin.h; R.L. Wigington & N.S. Nahman, Proc. IRE 45(2), 1957), causal
+ * (magnitude and minimum phase), its pure delay t_j unchanged; the injected pulse (path 0) is not.
+ * Synthesis is spectral: each arrival's pulse sampled analytically at its sub-sample offset,
+ * transformed on a power-of-two length N >= 2 frames, multiplied by H and its integer delay, summed,
+ * transformed back; the loss tail beyond N that wraps onto the record is subtracted analytically
+ * (pulse area times the periodic images of the impulse response, two images plus an integral).
+ * skin_k_s05_per_m = 0 is se_simulate exactly (bit for bit). Cost: arrivals x N log N.
+ *   skin_k_s05_per_m  K, s^0.5 per metre, finite >= 0
+ *   speed_m_s         wave speed of the (uniform) line, m/s, finite > 0
+ * Errors as se_simulate, and SE_ERR_RANGE for bad K or speed, SE_ERR_NOMEM when arrivals x N
+ * exceeds 2^34 (too much work) or an allocation fails. */
+se_status se_simulate_skin(const se_sim_line *line, const se_sim_record *rec, double skin_k_s05_per_m,
+                           double speed_m_s, double *response, double *pulse, size_t frames,
+                           se_error *err);
+
 /* A reflector on a uniform line. */
 typedef struct se_sim_reflector {
     double distance_m;  /* from the sensor, m, > 0 and < the far end */

@@ -41,6 +41,10 @@ static const char se_simulate_usage[] =
     "  --quantity Q             what the sensor records (sign rule for named terminations;\n"
     "                           default velocity, voltage with --velocity-factor)\n"
     "  --loss DB_PER_M          attenuation, dB per metre of travel (default 0)\n"
+    "  --skin-loss K            skin-effect loss of a cable, K in s^0.5/m (default 0): each\n"
+    "                           arrival is shaped by H(s) = exp(-K l sqrt(s)), l its path length\n"
+    "                           (speed x arrival time), magnitude and causal phase; lattice\n"
+    "                           model, uniform speed (with --line: the first segment's)\n"
     "  --noise RMS              Gaussian noise, RMS relative to the pulse peak (default 0)\n"
     "  --seed N                 noise seed (default 1)\n"
     "  --pulse-start T          injection time (default twice the pulse length)\n"
@@ -457,6 +461,7 @@ int se_cmd_simulate(int argc, char **argv)
     const char *refl_spec[SE_MAX_REFLECTORS];
     size_t nrefl = 0, frames, i;
     double loss = 0.0, noise = 0.0, gain = 0.5, seed = 1.0, shots = 1.0, interval_s = 0.0;
+    double skin = 0.0;
     const char *interval = NULL;
     se_sim_reflector refl[SE_MAX_REFLECTORS];
     se_sim_interface *ifs = NULL;
@@ -538,6 +543,11 @@ int se_cmd_simulate(int argc, char **argv)
                 return SE_EXIT_USAGE;
             continue;
         }
+        if ((got = se_cli_value(&c, "--skin-loss", &v)) != 0) {
+            if (got < 0 || se_parse_number("--skin-loss", v, 0.0, 1.0, &skin) != 0)
+                return SE_EXIT_USAGE;
+            continue;
+        }
         if ((got = se_cli_value(&c, "--noise", &v)) != 0) {
             if (got < 0 || se_parse_number("--noise", v, 0.0, 1e3, &noise) != 0)
                 return SE_EXIT_USAGE;
@@ -616,6 +626,8 @@ int se_cmd_simulate(int argc, char **argv)
             return SE_EXIT_USAGE;
     if (fd && shots > 1.0)
         return se_cli_fail(SE_EXIT_USAGE, "--shots goes with the lattice model (drop --model fd)");
+    if (fd && skin > 0.0)
+        return se_cli_fail(SE_EXIT_USAGE, "--skin-loss goes with the lattice model (drop --model fd)");
     if (fd) {
         rec.noise_rms = noise;
         rec.seed = (unsigned long)seed;
@@ -685,7 +697,7 @@ int se_cmd_simulate(int argc, char **argv)
         rc = se_cli_fail(SE_EXIT_MEMORY, "simulate: out of memory for %zu samples", frames);
         goto done;
     }
-    if (se_simulate(&line, &rec, resp, inj, frames, &err) != SE_OK) {
+    if (se_simulate_skin(&line, &rec, skin, sp.speed_m_s, resp, inj, frames, &err) != SE_OK) {
         rc = se_cli_fail(se_cli_exit_code(err.code, 0), "simulate: %s", err.message);
         goto done;
     }

@@ -4,6 +4,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include <fftw3.h>
 #include <gsl/gsl_randist.h>
 #include <gsl/gsl_rng.h>
 
@@ -513,4 +514,155 @@ se_status se_sim_uniform_line(double speed_m_s, const se_sim_reflector *refl, si
     line->loss_np_per_s = loss_db_per_m * log(10.0) / 20.0 * speed_m_s;
     *interfaces = out;
     return SE_OK;
+}
+
+/* Skin-effect impulse response per sample, h(t / fs) / fs (skin.h), t in samples. */
+static double se_sim_skin_h(double t_samples, double a, double fs)
+{
+    double t;
+    if (!(t_samples > 0.0))
+        return 0.0;
+    t = t_samples / fs;
+    return a / (2.0 * sqrt(SE_PI)) * pow(t, -1.5) * exp(-a * a / (4.0 * t)) / fs;
+}
+
+se_status se_simulate_skin(const se_sim_line *line, const se_sim_record *rec, double skin_k_s05_per_m,
+                           double speed_m_s, double *response, double *pulse, size_t frames,
+                           se_error *err)
+{
+    size_t want = 0, i, k, n_arr = 0, os, N, nb, mp;
+    se_sim_arrival *arr = NULL;
+    se_status st;
+    double fs, t0, horizon, floor_abs, sensor, *buf = NULL;
+    fftw_complex *spec = NULL, *acc = NULL;
+    fftw_plan pf = NULL, pb = NULL;
+    if (!isfinite(skin_k_s05_per_m) || skin_k_s05_per_m < 0.0)
+        return se_fail(err, SE_ERR_RANGE, "simulate: skin loss %g s^0.5/m is not finite >= 0",
+                       skin_k_s05_per_m);
+    if (!isfinite(speed_m_s) || !(speed_m_s > 0.0))
+        return se_fail(err, SE_ERR_RANGE, "simulate: speed %g m/s is not finite > 0", speed_m_s);
+    if (skin_k_s05_per_m == 0.0)
+        return se_simulate(line, rec, response, pulse, frames, err);
+    st = se_sim_check_record(rec, &want, err);
+    if (st != SE_OK)
+        return st;
+    st = se_sim_check_line(line, err);
+    if (st != SE_OK)
+        return st;
+    if (frames != want)
+        return se_fail(err, SE_ERR_ARG, "simulate: %zu frames given, the record has %zu", frames, want);
+    fs = rec->rate_hz;
+    t0 = rec->pulse_start_s;
+    if (pulse != NULL)
+        for (i = 0; i < frames; i++)
+            pulse[i] = se_pulse_value(&rec->pulse, (double)i / fs - t0);
+    if (response == NULL)
+        return SE_OK;
+    if (frames > ((size_t)1 << 28))
+        return se_fail(err, SE_ERR_NOMEM, "simulate: skin-effect synthesis of %zu frames: at most 2^28",
+                       frames);
+    os = rec->oversample ? rec->oversample : SE_SIM_DEFAULT_OVERSAMPLE;
+    floor_abs = rec->amplitude_floor > 0.0 ? rec->amplitude_floor : SE_SIM_DEFAULT_FLOOR;
+    horizon = (double)(frames - 1) / fs - t0;
+    if (horizon >= 0.0) {
+        st = se_sim_arrivals_floor(line, horizon, 1.0 / (fs * (double)os), floor_abs, &arr, &n_arr, err);
+        if (st != SE_OK)
+            return st;
+    }
+    N = 64;
+    while (N < 2 * frames)
+        N <<= 1;
+    if ((double)n_arr * (double)N > 17179869184.0) { /* 2^34 */
+        free(arr);
+        return se_fail(err, SE_ERR_NOMEM,
+                       "simulate: skin-effect synthesis of %zu arrivals on %zu points is too much work: "
+                       "raise the amplitude floor or shorten the record", n_arr, N);
+    }
+    nb = N / 2 + 1;
+    mp = (size_t)floor(rec->pulse.duration_s * fs) + 3;
+    buf = fftw_malloc(N * sizeof *buf);
+    spec = fftw_malloc(nb * sizeof *spec);
+    acc = fftw_malloc(nb * sizeof *acc);
+    if (buf == NULL || spec == NULL || acc == NULL) {
+        st = se_fail(err, SE_ERR_NOMEM, "simulate: cannot allocate %zu points", N);
+        goto done;
+    }
+    pf = fftw_plan_dft_r2c_1d((int)N, buf, spec, FFTW_ESTIMATE);
+    pb = fftw_plan_dft_c2r_1d((int)N, acc, buf, FFTW_ESTIMATE);
+    if (pf == NULL || pb == NULL) {
+        st = se_fail(err, SE_ERR_NOMEM, "simulate: cannot plan a %zu-point transform", N);
+        goto done;
+    }
+    memset(acc, 0, nb * sizeof *acc);
+    memset(buf, 0, N * sizeof *buf);
+    sensor = 1.0 + line->source_reflection;
+    for (i = 0; i < n_arr; i++) {
+        /* the arrival's pulse starts at (n0 + phi) / fs; sampled analytically at k - phi */
+        const double start = (t0 + arr[i].time_s) * fs, n0 = floor(start), phi = start - n0;
+        const double amp = sensor * arr[i].amplitude;
+        const double a = skin_k_s05_per_m * speed_m_s * arr[i].time_s;
+        if (n0 >= (double)frames)
+            continue;
+        for (k = 0; k < mp; k++)
+            buf[k] = se_pulse_value(&rec->pulse, ((double)k - phi) / fs);
+        fftw_execute(pf);
+        for (k = 0; k < nb; k++) {
+            /* amp H(j w) exp(-j w n0): loss exp(-a sqrt(w/2) (1 + j)), w rad/s; delay w rad/sample */
+            const double w = 2.0 * SE_PI * (double)k / (double)N;
+            const double q = a * sqrt(0.5 * w * fs);
+            const double g = amp * exp(-q), ph = -(q + w * n0);
+            const double hr = g * cos(ph), hi = g * sin(ph);
+            acc[k][0] += spec[k][0] * hr - spec[k][1] * hi;
+            acc[k][1] += spec[k][0] * hi + spec[k][1] * hr;
+        }
+    }
+    fftw_execute(pb);
+    for (i = 0; i < frames; i++) {
+        response[i] = (pulse != NULL ? pulse[i] : se_pulse_value(&rec->pulse, (double)i / fs - t0)) +
+                      buf[i] / (double)N;
+    }
+    /* the tails beyond N wrap onto the record: far out each arrival is amp s0 h(t - c) */
+    {
+        double s0 = 0.0, s1 = 0.0;
+        for (k = 0; k < mp; k++) {
+            const double pv = se_pulse_value(&rec->pulse, (double)k / fs);
+            s0 += pv;
+            s1 += (double)k * pv;
+        }
+        if (s0 != 0.0)
+            for (i = 0; i < n_arr; i++) {
+                const double start = (t0 + arr[i].time_s) * fs, c = start + s1 / s0;
+                const double amp = sensor * arr[i].amplitude * s0;
+                const double a = skin_k_s05_per_m * speed_m_s * arr[i].time_s;
+                if (start >= (double)frames)
+                    continue;
+                for (k = 0; k < frames; k++) {
+                    double al = se_sim_skin_h((double)k + (double)N - c, a, fs) +
+                                se_sim_skin_h((double)k + 2.0 * (double)N - c, a, fs);
+                    al += erf(a / (2.0 * sqrt(((double)k + 2.5 * (double)N - c) / fs))) / (double)N;
+                    response[k] -= amp * al;
+                }
+            }
+    }
+    if (rec->noise_rms > 0.0) {
+        gsl_rng *rng = gsl_rng_alloc(gsl_rng_mt19937);
+        if (rng == NULL) {
+            st = se_fail(err, SE_ERR_NOMEM, "simulate: cannot allocate the noise generator");
+            goto done;
+        }
+        gsl_rng_set(rng, rec->seed);
+        for (i = 0; i < frames; i++)
+            response[i] += gsl_ran_gaussian_ziggurat(rng, rec->noise_rms);
+        gsl_rng_free(rng);
+    }
+done:
+    if (pf != NULL)
+        fftw_destroy_plan(pf);
+    if (pb != NULL)
+        fftw_destroy_plan(pb);
+    fftw_free(buf);
+    fftw_free(spec);
+    fftw_free(acc);
+    free(arr);
+    return st;
 }
