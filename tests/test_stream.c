@@ -47,6 +47,8 @@ static void test_noise_falls(void);
 static void test_clipping(void);
 static void test_refusals(void);
 static void test_mono_windows(void);
+static void test_formats(void);
+static void test_noise_taps(void);
 
 /* A 40-sample burst: 8 cycles of 0.1 cycles/sample under a Gaussian window. */
 static double ts_burst(double u)
@@ -489,6 +491,115 @@ out:
     remove(mono);
 }
 
+/* A file that is not native-endian float (read through libsndfile's conversion, not raw): AIFC
+ * float32, big-endian (FLAC, the integer format, cannot hold the 1 MHz rate), with a pulse
+ * channel, 1 and 2 threads. */
+static void test_formats(void)
+{
+    const char *ext[] = {"aif"};
+    size_t k;
+    for (k = 0; k < sizeof ext / sizeof ext[0]; k++) {
+        char path[4096], name[32];
+        se_locate_result whole, str;
+        double *ref = NULL;
+        size_t m = 0;
+        unsigned t;
+        se_error err;
+        snprintf(name, sizeof name, "stream_f.%s", ext[k]);
+        se_test_binary_path(path, sizeof path, name);
+        if (!CHECK(ts_write(path, 200003, ts_echoes, 6, 1e-3, 1e-3, 0.0, 13)))
+            continue;
+        if (!ts_whole(path, 1, &whole, &ref, &m)) {
+            remove(path);
+            continue;
+        }
+        CHECK(whole.n_events == 5);
+        for (t = 1; t <= 2; t++) {
+            se_stream_config sc;
+            se_locate_config cfg;
+            char what[96];
+            se_stream_config_init(&sc);
+            sc.pulse_channel = 1;
+            sc.threads = t;
+            se_locate_config_init(&cfg);
+            cfg.speed_m_s = TS_V;
+            se_error_clear(&err);
+            snprintf(what, sizeof what, "%s, %u thread%s", ext[k], t, t > 1 ? "s" : "");
+            if (!CHECK(se_locate_stream(path, &cfg, &sc, &str, NULL, &err) == SE_OK)) {
+                printf("  %s: %s\n", what, err.message);
+                continue;
+            }
+            ts_compare(&whole, &str, 1, what);
+            se_locate_result_free(&str);
+        }
+        se_locate_result_free(&whole);
+        free(ref);
+        remove(path);
+    }
+}
+
+/* The noise block's sigmas from its sampled lags alone (what the stream keeps) equal those of the
+ * whole block, and both follow the definition in detect.h: the MAD sigma of the block on at most
+ * SE_NOISE_BLOCK_SAMPLES strided lags, and the largest of it and its 8 parts' on at most
+ * SE_NOISE_PART_SAMPLES each (se_noise_mad directly), for lengths below and above the strides. */
+static void test_noise_taps(void)
+{
+    const size_t lens[] = {10, 127, 128, 4096, 5000, 262144 + 4095, 1048576 + 12345};
+    size_t n = 1048576 + 12345, k, i, nt;
+    double d1, d2;
+    double *r = malloc(n * sizeof *r), *vals = malloc(SE_NOISE_BLOCK_TAPS * sizeof *vals);
+    size_t *idx = malloc(SE_NOISE_BLOCK_TAPS * sizeof *idx);
+    uint64_t st = 99;
+    se_error err;
+    if (!CHECK(r != NULL && vals != NULL && idx != NULL))
+        goto out;
+    for (i = 0; i < n; i++) /* a loud tenth in the middle: the parts must see it */
+        r[i] = ts_gauss(&st) * (i > n / 2 && i < n / 2 + n / 10 ? 8.0 : 1.0);
+    for (k = 0; k < sizeof lens / sizeof lens[0]; k++) {
+        size_t len = lens[k], first[9], part = len / 8, q;
+        double s1, h1, s2, h2, hdef;
+        se_noise nz;
+        char what[64];
+        snprintf(what, sizeof what, "block of %zu lags", len);
+        se_error_clear(&err);
+        if (!CHECK(se_noise_block_sigma(r + n - len, len, &s1, &h1, &err) == SE_OK))
+            continue;
+        nt = se_noise_block_taps(len, idx, first);
+        CHECK(nt <= SE_NOISE_BLOCK_TAPS && first[8] == nt && nt == se_noise_block_taps(len, NULL, NULL));
+        for (i = 0; i < nt; i++)
+            vals[i] = idx[i] < len ? r[n - len + idx[i]] : NAN;
+        if (!CHECK(se_noise_block_sigma_taps(vals, len, &s2, &h2, &err) == SE_OK))
+            continue;
+        if (!CHECK(s1 == s2 && h1 == h2))
+            printf("  %s: sigma %.17g / %.17g, hi %.17g / %.17g\n", what, s1, s2, h1, h2);
+        CHECK(se_noise_mad(r + n - len, 0, len, SE_NOISE_BLOCK_SAMPLES, &nz, &err) == SE_OK);
+        CHECK_CLOSE(s1, nz.sigma, 0.0, what);
+        hdef = nz.sigma;
+        for (q = 0; part >= 16 && q < 8; q++) {
+            size_t a = q * part, e = q == 7 ? len : a + part;
+            CHECK(se_noise_mad(r + n - len, a, e, SE_NOISE_PART_SAMPLES, &nz, &err) == SE_OK);
+            hdef = nz.sigma > hdef ? nz.sigma : hdef;
+        }
+        CHECK_CLOSE(h1, hdef, 0.0, what);
+    }
+    /* a non-finite sampled value is named by its offset in the block */
+    nt = se_noise_block_taps(5000, idx, NULL);
+    for (i = 0; i < nt; i++)
+        vals[i] = 1.0 + (double)i;
+    vals[3] = INFINITY;
+    se_error_clear(&err);
+    CHECK(se_noise_block_sigma_taps(vals, 5000, &d1, &d2, &err) == SE_ERR_DATA);
+    {
+        char want[64];
+        snprintf(want, sizeof want, "lag %zu ", idx[3]);
+        CHECK(strstr(err.message, want) != NULL);
+    }
+out:
+    free(r);
+    free(vals);
+    free(idx);
+}
+
 int main(void)
 {
     test_blocks_and_threads();
@@ -497,5 +608,7 @@ int main(void)
     test_clipping();
     test_refusals();
     test_mono_windows();
+    test_formats();
+    test_noise_taps();
     return se_test_done("test_stream");
 }

@@ -115,6 +115,19 @@ size_t se_noise_block_count(size_t start, size_t end, size_t block);
  * se_noise_profile_estimate takes for the block. */
 se_status se_noise_block_sigma(const double *r_block, size_t len, double *sigma, double *hi,
                                se_error *err);
+/* The same from the block's sampled lags only, for a caller that sees the block go by in pieces
+ * (the streaming locate) and need not keep it: se_noise_block_taps fills idx [size:
+ * SE_NOISE_BLOCK_TAPS] with the offsets in [0, len) that se_noise_block_sigma reads (the block's
+ * strided offsets, then each part's; an offset may appear twice) and returns their count nt
+ * (idx NULL: only counted); if first is not NULL, first [size: 9] receives where the block's and
+ * each part's offsets start in idx (first[8] = nt). 0 for len = 0. se_noise_block_sigma_taps then takes
+ * vals[i] = r_block[idx[i]] [size: nt] and gives se_noise_block_sigma's values bit for bit.
+ * Errors: NULL arguments, len = 0 (SE_ERR_ARG); a non-finite value (its offset named,
+ * SE_ERR_DATA). */
+#define SE_NOISE_BLOCK_TAPS (SE_NOISE_BLOCK_SAMPLES + 8 * SE_NOISE_PART_SAMPLES)
+size_t se_noise_block_taps(size_t len, size_t *idx, size_t *first);
+se_status se_noise_block_sigma_taps(const double *vals, size_t len, double *sigma, double *hi,
+                                    se_error *err);
 /* From the block sigmas raw and hi [size: nb >= 1] (se_noise_block_sigma; read, not kept), each
  * raw floored at floor (>= 0): a block whose hi exceeds SE_NOISE_RUN_RATIO times its raw sigma
  * holds a change of level and is treated as a block alone in its run (its level: the largest of

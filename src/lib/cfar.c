@@ -14,7 +14,11 @@
 #define SE_NOISE_RUN_REACH 4 /* blocks each side averaged within a run */
 #define SE_NOISE_SUBBLOCKS 8 /* parts of a block whose MADs show a change inside it */
 
+_Static_assert(SE_NOISE_BLOCK_TAPS == SE_NOISE_BLOCK_SAMPLES + SE_NOISE_SUBBLOCKS * SE_NOISE_PART_SAMPLES,
+               "SE_NOISE_BLOCK_TAPS counts the block's and its parts' strided samples");
+
 static int se_same_level(double a, double b);
+static size_t se_strided_taps(size_t a, size_t e, size_t max, size_t *idx);
 
 /* Two block sigmas of one level: within SE_NOISE_RUN_RATIO of each other. */
 static int se_same_level(double a, double b)
@@ -39,32 +43,101 @@ size_t se_noise_block_count(size_t start, size_t end, size_t block)
     return (end - start) / block;
 }
 
-se_status se_noise_block_sigma(const double *r_block, size_t len, double *sigma, double *hi,
-                               se_error *err)
+/* Offsets [0, len) that se_noise_mad reads for the values (not the differences) of the block
+ * (at most SE_NOISE_BLOCK_SAMPLES, strided) and of each of its parts (SE_NOISE_PART_SAMPLES). */
+static size_t se_strided_taps(size_t a, size_t e, size_t max, size_t *idx)
 {
+    size_t count = e - a, stride = count / max + (count % max != 0), used, i;
+    used = (count + stride - 1) / stride;
+    for (i = 0; idx != NULL && i < used; i++)
+        idx[i] = a + i * stride;
+    return used;
+}
+
+size_t se_noise_block_taps(size_t len, size_t *idx, size_t *first)
+{
+    size_t q, part = len / SE_NOISE_SUBBLOCKS, nt;
+    if (len == 0)
+        return 0;
+    nt = se_strided_taps(0, len, SE_NOISE_BLOCK_SAMPLES, idx);
+    for (q = 0; q <= SE_NOISE_SUBBLOCKS; q++) {
+        size_t a = q * part, e = q + 1 == SE_NOISE_SUBBLOCKS ? len : a + part;
+        if (first != NULL)
+            first[q] = nt;
+        if (q < SE_NOISE_SUBBLOCKS && part >= 16)
+            nt += se_strided_taps(a, e, SE_NOISE_PART_SAMPLES, idx != NULL ? idx + nt : NULL);
+    }
+    return nt;
+}
+
+se_status se_noise_block_sigma_taps(const double *vals, size_t len, double *sigma, double *hi,
+                                    se_error *err)
+{
+    size_t first[SE_NOISE_SUBBLOCKS + 1], nt, q, i;
     se_noise nz;
     se_status st;
-    size_t q, part = len / SE_NOISE_SUBBLOCKS;
-    if (sigma == NULL || hi == NULL)
-        return se_fail(err, SE_ERR_ARG, "noise block: NULL result");
-    /* strided samples, not every lag: 2^10 values give the block's sigma to about 3.6 %, far
-     * inside the factor 2 that decides whether the noise varies; every lag cost as much as the
-     * correlation itself */
-    st = se_noise_mad(r_block, 0, len, SE_NOISE_BLOCK_SAMPLES, &nz, err);
+    if (sigma == NULL || hi == NULL || vals == NULL)
+        return se_fail(err, SE_ERR_ARG, "noise block: NULL %s", vals == NULL ? "values" : "result");
+    if (len == 0)
+        return se_fail(err, SE_ERR_ARG, "noise block: empty block");
+    nt = se_noise_block_taps(len, NULL, first);
+    for (i = 0; i < nt; i++)
+        if (!isfinite(vals[i])) {
+            size_t *idx = malloc(nt * sizeof *idx), at = SIZE_MAX;
+            if (idx != NULL) {
+                se_noise_block_taps(len, idx, NULL);
+                at = idx[i];
+                free(idx);
+            }
+            return se_fail(err, SE_ERR_DATA, "noise block: lag %zu of the block is not finite", at);
+        }
+    /* every value once, stride 1: se_noise_mad's sigma of the block's strided values, bit for bit
+     * (its beta, from differences of these values, is not used) */
+    st = se_noise_mad(vals, 0, first[0], first[0], &nz, err);
     if (st != SE_OK)
         return st;
     *sigma = nz.sigma;
     *hi = nz.sigma;
     /* the MAD ignores a loud minority of the block: its parts show it */
-    for (q = 0; part >= 16 && q < SE_NOISE_SUBBLOCKS; q++) {
-        size_t a = q * part, e = q + 1 == SE_NOISE_SUBBLOCKS ? len : a + part;
-        st = se_noise_mad(r_block, a, e, SE_NOISE_PART_SAMPLES, &nz, err);
+    for (q = 0; q < SE_NOISE_SUBBLOCKS && first[q + 1] > first[q]; q++) {
+        st = se_noise_mad(vals + first[q], 0, first[q + 1] - first[q], first[q + 1] - first[q], &nz,
+                          err);
         if (st != SE_OK)
             return st;
         if (nz.sigma > *hi)
             *hi = nz.sigma;
     }
     return SE_OK;
+}
+
+se_status se_noise_block_sigma(const double *r_block, size_t len, double *sigma, double *hi,
+                               se_error *err)
+{
+    size_t *idx, nt, i;
+    double *vals;
+    se_status st;
+    if (sigma == NULL || hi == NULL || r_block == NULL)
+        return se_fail(err, SE_ERR_ARG, "noise block: NULL %s", r_block == NULL ? "data" : "result");
+    if (len == 0)
+        return se_fail(err, SE_ERR_ARG, "noise block: empty block");
+    /* strided samples, not every lag: 2^10 values give the block's sigma to about 3.6 %, far
+     * inside the factor 2 that decides whether the noise varies; every lag cost as much as the
+     * correlation itself */
+    idx = malloc(SE_NOISE_BLOCK_TAPS * sizeof *idx);
+    vals = malloc(SE_NOISE_BLOCK_TAPS * sizeof *vals);
+    if (idx == NULL || vals == NULL) {
+        free(idx);
+        free(vals);
+        return se_fail(err, SE_ERR_NOMEM, "noise block: cannot allocate %d samples",
+                       (int)SE_NOISE_BLOCK_TAPS);
+    }
+    nt = se_noise_block_taps(len, idx, NULL);
+    for (i = 0; i < nt; i++)
+        vals[i] = r_block[idx[i]];
+    st = se_noise_block_sigma_taps(vals, len, sigma, hi, err);
+    free(idx);
+    free(vals);
+    return st;
 }
 
 se_status se_noise_profile_from_blocks(const double *raw, const double *hi, size_t nb, size_t start,

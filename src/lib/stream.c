@@ -12,6 +12,10 @@
 #include <stdlib.h>
 #include <string.h>
 
+#if defined(__SSE2__)
+#include <emmintrin.h> /* the two scans below, two lags at a time; plain C elsewhere */
+#endif
+
 #include "internal.h"
 #include "strandecho/detect.h"
 #include "strandecho/distmap.h"
@@ -29,6 +33,9 @@
  * rarely passes it (clusters stay few), low enough that a provisional noise over the final one by
  * up to a quarter still needs no second pass. */
 #define SE_STREAM_PRE_FRACTION 0.8
+/* Chunks of r correlated ahead of the scan (threads lc lags each, 2 MiB at the default block):
+ * enough to keep both cores busy while the reference's autocorrelation is made. */
+#define SE_STREAM_RING 8
 
 /* Clipping runs at one extreme, tracked while the extreme may still move. */
 typedef struct se_clip_side {
@@ -52,6 +59,25 @@ typedef struct se_worker {
     se_status st;
     se_error err;
 } se_worker;
+
+/* The file being read: the response channel ch of nch; rawf: native-endian float data, read raw
+ * through fbuf [size: SE_STREAM_READ_FRAMES nch]; other multichannel data through inter. */
+typedef struct se_src {
+    SNDFILE *snd;
+    const char *path;
+    unsigned nch, ch;
+    int rawf;
+    float *fbuf;
+    double *inter;
+} se_src;
+
+/* Work done in the calling thread of a pass once its correlation has started. */
+typedef se_status (*se_pass_hook)(void *ctx, se_error *err);
+
+/* One sampled lag of a noise block: its offset in the block and its slot in the block's values. */
+typedef struct se_tap {
+    size_t pos, slot;
+} se_tap;
 
 /* Everything one run needs. */
 typedef struct se_sl {
@@ -88,10 +114,13 @@ typedef struct se_sl {
     size_t run_start, seen;
     int varies;
     /* non-stationary noise (cfar.c): block b of blen lags covers [start + b blen, ...), the last
-     * to end; one block's r at a time in bbuf, then its two MAD sigmas in braw/bhi */
+     * to end; only the lags se_noise_block_sigma samples are taken from r as it goes by (taps,
+     * sorted by offset, for a block of tlen lags; tnext the next one due) into tval, then the
+     * block's two MAD sigmas go to braw/bhi */
     int track;
-    size_t blen, nb, bi, bfill;
-    double *bbuf, *braw, *bhi;
+    size_t blen, nb, bi, ntaps, tnext, tlen;
+    se_tap *taps;
+    double *tval, *braw, *bhi;
     /* the profile pass: candidates against SE_STREAM_PRE_FRACTION of each lag's own threshold
      * pk sigma(lag), clusters keeping their largest |r| / (pk sigma(lag)) */
     const se_noise_profile *pprof;
@@ -102,13 +131,14 @@ static se_status se_sl_cand(se_sl *s, size_t i, double av, se_error *err);
 static se_status se_sl_block(se_sl *s, size_t i0, const double *v, size_t n, se_error *err);
 static void se_sl_scan(se_sl *s, size_t i0, const double *v, size_t a, size_t b, se_status *st,
                        se_error *err);
-static void se_clip_block(se_sl *s, size_t i0, const double *v, size_t n);
+static size_t se_clip_block(se_sl *s, size_t i0, const double *v, size_t n);
 static size_t se_first_bad(const double *v, size_t n);
-static se_status se_read_range(SNDFILE *snd, const char *path, unsigned nch, unsigned ch, size_t pos,
-                               size_t count, double *x, double *inter, se_error *err);
-static se_status se_window_data(const se_sl *s, SNDFILE *snd, const char *path, unsigned nch,
-                                unsigned ch, const se_xcorr *xc, se_xcorr_work *w, size_t a,
-                                size_t e, double **data, se_error *err);
+static int se_block_flags(const double *u, size_t len, double cmx, double cmn);
+static int se_any_at_least(const double *p, size_t len, double t);
+static void se_widen(double *o, const float *f, size_t n);
+static se_status se_read_range(se_src *src, size_t pos, size_t count, double *x, se_error *err);
+static se_status se_window_data(const se_sl *s, se_src *src, const se_xcorr *xc, se_xcorr_work *w,
+                                size_t a, size_t e, double **data, se_error *err);
 static se_status se_sl_know(se_sl *s, size_t c0, size_t c1, const double *chunk, se_error *err);
 static se_status se_sl_chunk(se_sl *s, size_t c0, size_t c1, const double *r, se_error *err);
 static void se_clip_close(se_sl *s);
@@ -116,14 +146,18 @@ static void se_clip_sample(se_sl *s, size_t i, double v);
 static void se_clip_result(const se_sl *s, se_locate_result *res);
 static se_status se_provisional(se_sl *s, se_error *err);
 static void *se_worker_run(void *arg);
-static se_status se_pass(se_sl *s, SNDFILE *snd, const char *path, unsigned nch, unsigned ch,
-                         const se_xcorr *xc, se_xcorr_work *const *w, unsigned threads, size_t lc,
+static se_status se_pass(se_sl *s, se_src *src, const se_xcorr *xc, se_xcorr_work *const *w,
+                         unsigned threads, size_t lc, se_pass_hook hook, void *hook_ctx,
                          se_error *err);
 static void se_sl_reset(se_sl *s);
+static se_status se_sl_direct(se_sl *s, se_error *err);
+static se_status se_prep_run(void *ctx, se_error *err);
 static int se_peak_by_size(const void *a, const void *b);
 static int se_peak_by_lag(const void *a, const void *b);
 static se_status se_sl_noise_blocks(se_sl *s, size_t i0, const double *v, size_t lo, size_t hi,
                                     se_error *err);
+static se_status se_sl_taps(se_sl *s, se_error *err);
+static int se_tap_by_pos(const void *a, const void *b);
 static size_t se_prof_block(const se_noise_profile *p, size_t lag);
 static void se_sl_scan_profile(se_sl *s, size_t i0, const double *v, size_t a, size_t b,
                                se_status *st, se_error *err);
@@ -232,48 +266,104 @@ static void se_clip_result(const se_sl *s, se_locate_result *res)
         res->first_clipped = res->clip_runs[0][0];
 }
 
-/* The block form of se_clip_sample, for [i0, i0+n) in order. A block with no two equal
- * neighbours (nor equal to the run before it), once the record varies, holds only runs of one
- * sample: the run before it closes at i0 and the extremes move at most once, as sample by sample.
- * Other blocks go sample by sample. */
-static void se_clip_block(se_sl *s, size_t i0, const double *v, size_t n)
+/* Whether |p[k]| >= t for some k < len (NaN never is). */
+static int se_any_at_least(const double *p, size_t len, double t)
+{
+    size_t k = 0;
+    int any = 0;
+#if defined(__SSE2__)
+    const __m128d mask = _mm_castsi128_pd(_mm_set1_epi64x(0x7fffffffffffffffLL)), vt = _mm_set1_pd(t);
+    __m128d acc = _mm_setzero_pd();
+    for (; k + 2 <= len; k += 2)
+        acc = _mm_or_pd(acc, _mm_cmpge_pd(_mm_and_pd(_mm_loadu_pd(p + k), mask), vt));
+    any = _mm_movemask_pd(acc) != 0;
+#endif
+    for (; k < len; k++)
+        any |= fabs(p[k]) >= t;
+    return any;
+}
+
+/* The tests of one block u [size: len >= 1] of se_clip_block, as bits: 1 a non-finite value
+ * (x - x is NaN exactly then), 2 two equal neighbours, 4 a value above cmx, 8 one below cmn.
+ * Independent tests OR-ed together, two values at a time where SSE2 is there. */
+static int se_block_flags(const double *u, size_t len, double cmx, double cmn)
+{
+    size_t k = 1;
+    int bad = !(u[0] - u[0] == 0.0), eq = 0, up = u[0] > cmx, dn = u[0] < cmn;
+#if defined(__SSE2__)
+    {
+        const __m128d vmx = _mm_set1_pd(cmx), vmn = _mm_set1_pd(cmn);
+        __m128d b = _mm_setzero_pd(), e = b, hi = b, lo = b;
+        for (; k + 2 <= len; k += 2) {
+            __m128d x = _mm_loadu_pd(u + k), d = _mm_sub_pd(x, x);
+            b = _mm_or_pd(b, _mm_cmpunord_pd(d, d));
+            e = _mm_or_pd(e, _mm_cmpeq_pd(x, _mm_loadu_pd(u + k - 1)));
+            hi = _mm_or_pd(hi, _mm_cmpgt_pd(x, vmx));
+            lo = _mm_or_pd(lo, _mm_cmplt_pd(x, vmn));
+        }
+        bad |= _mm_movemask_pd(b) != 0;
+        eq |= _mm_movemask_pd(e) != 0;
+        up |= _mm_movemask_pd(hi) != 0;
+        dn |= _mm_movemask_pd(lo) != 0;
+    }
+#endif
+    for (; k < len; k++) {
+        double x = u[k];
+        bad |= !(x - x == 0.0);
+        eq |= x == u[k - 1];
+        up |= x > cmx;
+        dn |= x < cmn;
+    }
+    return bad | eq << 1 | up << 2 | dn << 3;
+}
+
+/* The block form of se_clip_sample, for [i0, i0+n) in order, with the finite test: returns the
+ * index of the first non-finite value (the clipping state is then unusable), n if none. A block
+ * with no two equal neighbours (nor equal to the run before it), once the record varies, holds
+ * only runs of one sample: the run before it closes at i0 and the extremes move at most once, as
+ * sample by sample. Other blocks go sample by sample. The scan of a block tests each value
+ * against the extremes instead of carrying a running minimum and maximum (a chain of dependent
+ * operations); the block's own extreme is found only when it passes one. */
+static size_t se_clip_block(se_sl *s, size_t i0, const double *v, size_t n)
 {
     size_t j, k;
     for (j = 0; j < n; j += k) {
         size_t len = n - j < 256 ? n - j : 256;
         const double *u = v + j;
-        double lo = u[0], hi = u[0];
-        int eq = 0;
-        k = len;
-        if (i0 + j == 0 || !s->varies || u[0] == s->run_v) {
+        const double cmx = s->cmax.value, cmn = s->cmin.value;
+        int fl = se_block_flags(u, len, cmx, cmn);
+        int bad = fl & 1, eq = fl & 2, up = fl & 4, dn = fl & 8;
+        if (bad)
             for (k = 0; k < len; k++)
-                se_clip_sample(s, i0 + j + k, u[k]);
-            continue;
-        }
-        for (k = 1; k < len; k++) {
-            eq |= u[k] == u[k - 1];
-            lo = u[k] < lo ? u[k] : lo;
-            hi = u[k] > hi ? u[k] : hi;
-        }
+                if (!isfinite(u[k]))
+                    return j + k;
         k = len;
-        if (eq) {
+        if (i0 + j == 0 || !s->varies || u[0] == s->run_v || eq) {
             for (k = 0; k < len; k++)
                 se_clip_sample(s, i0 + j + k, u[k]);
             continue;
         }
         se_clip_close(s); /* the run before the block ends at i0 + j (s->seen) */
-        if (hi > s->cmax.value) {
+        if (up) {
+            double hi = u[0];
+            for (k = 1; k < len; k++)
+                hi = u[k] > hi ? u[k] : hi;
             memset(&s->cmax, 0, sizeof s->cmax);
             s->cmax.value = hi;
         }
-        if (lo < s->cmin.value) {
+        if (dn) {
+            double lo = u[0];
+            for (k = 1; k < len; k++)
+                lo = u[k] < lo ? u[k] : lo;
             memset(&s->cmin, 0, sizeof s->cmin);
             s->cmin.value = lo;
         }
+        k = len;
         s->run_v = u[len - 1];
         s->run_start = i0 + j + len - 1;
         s->seen = i0 + j + len;
     }
+    return n;
 }
 
 /* Index of the first non-finite value of v [size: n], n if none; x - x is NaN exactly then. */
@@ -362,10 +452,8 @@ static void se_sl_scan(se_sl *s, size_t i0, const double *v, size_t a, size_t b,
         return;
     }
     for (j = 0; j < n && *st == SE_OK; j += 64) {
-        size_t len = n - j < 64 ? n - j : 64, hits = 0;
-        for (k = 0; k < len; k++)
-            hits += fabs(p[j + k]) >= pre;
-        if (hits == 0)
+        size_t len = n - j < 64 ? n - j : 64;
+        if (!se_any_at_least(p + j, len, pre))
             continue;
         for (k = 0; k < len && *st == SE_OK; k++)
             if (fabs(p[j + k]) >= pre)
@@ -462,13 +550,14 @@ static se_status se_sl_know(se_sl *s, size_t c0, size_t c1, const double *chunk,
     if (s->nb < 3) {
         s->nb = 0;
     } else {
-        size_t last = s->end - s->start - (s->nb - 1) * s->blen; /* the longest block */
-        s->bbuf = malloc(last * sizeof *s->bbuf);
+        s->taps = malloc(SE_NOISE_BLOCK_TAPS * sizeof *s->taps);
+        s->tval = malloc(SE_NOISE_BLOCK_TAPS * sizeof *s->tval);
         s->braw = malloc(s->nb * sizeof *s->braw);
         s->bhi = malloc(s->nb * sizeof *s->bhi);
-        if (s->bbuf == NULL || s->braw == NULL || s->bhi == NULL)
-            return se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate a noise block of %zu lags",
-                           last);
+        if (s->taps == NULL || s->tval == NULL || s->braw == NULL || s->bhi == NULL)
+            return se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate %zu noise blocks", s->nb);
+        if ((st = se_sl_taps(s, err)) != SE_OK)
+            return st;
     }
     /* CLEAN's floor: sigma >= 1e-4 |a0| and k >= 3, so |r| below 3e-4 |a0| is never detected;
      * half that for the refined a0 against |r[k0]|. */
@@ -552,32 +641,71 @@ static void se_sl_reset(se_sl *s)
     memset(&s->cmin, 0, sizeof s->cmin);
     s->seen = 0;
     s->varies = 0;
-    free(s->bbuf);
+    free(s->taps);
+    free(s->tval);
     free(s->braw);
     free(s->bhi);
-    s->bbuf = s->braw = s->bhi = NULL;
-    s->nb = s->bi = s->bfill = 0;
+    s->taps = NULL;
+    s->tval = s->braw = s->bhi = NULL;
+    s->nb = s->bi = s->ntaps = s->tnext = s->tlen = 0;
+}
+
+static int se_tap_by_pos(const void *a, const void *b)
+{
+    const se_tap *x = a, *y = b;
+    if (x->pos != y->pos)
+        return (x->pos > y->pos) - (x->pos < y->pos);
+    return (x->slot > y->slot) - (x->slot < y->slot);
+}
+
+/* The sampled lags of noise block bi, in the order they go by (made again only when the block's
+ * length changes: the last block is longer). */
+static se_status se_sl_taps(se_sl *s, se_error *err)
+{
+    size_t b0 = s->start + s->bi * s->blen, b1 = s->bi + 1 == s->nb ? s->end : b0 + s->blen, i;
+    s->tnext = 0;
+    if (b1 - b0 == s->tlen)
+        return SE_OK;
+    {
+        size_t *idx = malloc(SE_NOISE_BLOCK_TAPS * sizeof *idx);
+        if (idx == NULL)
+            return se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate the noise block samples");
+        s->ntaps = se_noise_block_taps(b1 - b0, idx, NULL);
+        for (i = 0; i < s->ntaps; i++) {
+            s->taps[i].pos = idx[i];
+            s->taps[i].slot = i;
+        }
+        free(idx);
+    }
+    qsort(s->taps, s->ntaps, sizeof *s->taps, se_tap_by_pos);
+    s->tlen = b1 - b0;
+    return SE_OK;
 }
 
 /* Lags [lo, hi) of r (values v[i - i0]), in order, into the noise blocks: each block's sigmas
- * (se_noise_block_sigma) on exactly its own lags, as se_noise_profile_estimate takes them. */
+ * from the lags se_noise_block_sigma samples (se_noise_block_sigma_taps), as
+ * se_noise_profile_estimate takes them. */
 static se_status se_sl_noise_blocks(se_sl *s, size_t i0, const double *v, size_t lo, size_t hi,
                                     se_error *err)
 {
     while (lo < hi && s->bi < s->nb) {
         size_t b0 = s->start + s->bi * s->blen;
         size_t b1 = s->bi + 1 == s->nb ? s->end : b0 + s->blen;
-        size_t take = (hi < b1 ? hi : b1) - lo;
-        memcpy(s->bbuf + s->bfill, v + (lo - i0), take * sizeof *v);
-        s->bfill += take;
-        lo += take;
-        if (s->bfill == b1 - b0) {
-            se_status st = se_noise_block_sigma(s->bbuf, s->bfill, &s->braw[s->bi], &s->bhi[s->bi],
-                                                err);
+        size_t e = hi < b1 ? hi : b1;
+        /* the taps before lo went by in earlier calls */
+        while (s->tnext < s->ntaps && b0 + s->taps[s->tnext].pos < e) {
+            s->tval[s->taps[s->tnext].slot] = v[b0 + s->taps[s->tnext].pos - i0];
+            s->tnext++;
+        }
+        lo = e;
+        if (e == b1) {
+            se_status st = se_noise_block_sigma_taps(s->tval, b1 - b0, &s->braw[s->bi],
+                                                     &s->bhi[s->bi], err);
             if (st != SE_OK)
                 return st;
             s->bi++;
-            s->bfill = 0;
+            if (s->bi < s->nb && (st = se_sl_taps(s, err)) != SE_OK)
+                return st;
         }
     }
     return SE_OK;
@@ -603,12 +731,10 @@ static void se_sl_scan_profile(se_sl *s, size_t i0, const double *v, size_t a, s
     const double *p = v + (a - i0), f = SE_STREAM_PRE_FRACTION * s->pk;
     size_t n = b - a, j, k;
     for (j = 0; j < n && *st == SE_OK; j += 64) {
-        size_t len = n - j < 64 ? n - j : 64, hits = 0;
+        size_t len = n - j < 64 ? n - j : 64;
         double lo = f * fmin(pf->sigma[se_prof_block(pf, a + j)],
                              pf->sigma[se_prof_block(pf, a + j + len - 1)]);
-        for (k = 0; k < len; k++)
-            hits += fabs(p[j + k]) >= lo;
-        if (hits == 0)
+        if (!se_any_at_least(p + j, len, lo))
             continue;
         for (k = 0; k < len && *st == SE_OK; k++) {
             double t = s->pk * se_noise_profile_sigma(pf, (double)(a + j + k));
@@ -667,28 +793,53 @@ static se_status se_window_profile(const se_noise_profile *p, size_t a, size_t e
     return SE_OK;
 }
 
-/* count frames of channel ch into x, from frame pos (SIZE_MAX: from where the file is). Mono
- * files are read straight into x; others through inter [size: SE_STREAM_READ_FRAMES nch]. */
-static se_status se_read_range(SNDFILE *snd, const char *path, unsigned nch, unsigned ch, size_t pos,
-                               size_t count, double *x, double *inter, se_error *err)
+/* o[j] = f[j], j < n: 256 at a time (a fixed count the compiler vectorises at -O2), then the rest. */
+static void se_widen(double *o, const float *f, size_t n)
 {
-    size_t got = 0;
-    if (pos != SIZE_MAX && sf_seek(snd, (sf_count_t)pos, SEEK_SET) != (sf_count_t)pos)
-        return se_fail(err, SE_ERR_IO, "%s: cannot seek to frame %zu", path, pos);
+    size_t j = 0, k;
+    for (; j + 256 <= n; j += 256)
+        for (k = 0; k < 256; k++)
+            o[j + k] = (double)f[j + k];
+    for (; j < n; j++)
+        o[j] = (double)f[j];
+}
+
+/* count frames of the response channel into x, from frame pos (SIZE_MAX: from where the file
+ * is). Native-endian float data are read raw (sf_read_raw into src->fbuf, one read per
+ * SE_STREAM_READ_FRAMES frames) and widened here: the same doubles libsndfile's float-to-double
+ * read gives (a float widens exactly), without its copy through a small buffer. Other mono files
+ * are read straight into x; others through src->inter. */
+static se_status se_read_range(se_src *src, size_t pos, size_t count, double *x, se_error *err)
+{
+    size_t got = 0, nch = src->nch, ch = src->ch;
+    if (pos != SIZE_MAX && sf_seek(src->snd, (sf_count_t)pos, SEEK_SET) != (sf_count_t)pos)
+        return se_fail(err, SE_ERR_IO, "%s: cannot seek to frame %zu", src->path, pos);
     while (got < count) {
         size_t take = count - got, j;
         sf_count_t k;
-        if (nch == 1) {
-            k = sf_readf_double(snd, x + got, (sf_count_t)take);
+        if (src->rawf) {
+            const float *f = src->fbuf;
+            double *o = x + got;
+            if (take > SE_STREAM_READ_FRAMES)
+                take = SE_STREAM_READ_FRAMES;
+            k = sf_read_raw(src->snd, src->fbuf, (sf_count_t)(take * nch * sizeof(float)));
+            k = k > 0 ? k / (sf_count_t)(nch * sizeof(float)) : 0;
+            if (nch == 1)
+                se_widen(o, f, (size_t)k);
+            else
+                for (j = 0; j < (size_t)k; j++)
+                    o[j] = (double)f[j * nch + ch];
+        } else if (nch == 1) {
+            k = sf_readf_double(src->snd, x + got, (sf_count_t)take);
         } else {
             if (take > SE_STREAM_READ_FRAMES)
                 take = SE_STREAM_READ_FRAMES;
-            k = sf_readf_double(snd, inter, (sf_count_t)take);
+            k = sf_readf_double(src->snd, src->inter, (sf_count_t)take);
             for (j = 0; k > 0 && j < (size_t)k; j++)
-                x[got + j] = inter[j * nch + ch];
+                x[got + j] = src->inter[j * nch + ch];
         }
         if (k <= 0)
-            return se_fail(err, SE_ERR_FORMAT, "%s: truncated: file ends before frame %zu", path,
+            return se_fail(err, SE_ERR_FORMAT, "%s: truncated: file ends before frame %zu", src->path,
                            (pos == SIZE_MAX ? 0 : pos) + got + 1);
         got += (size_t)k;
     }
@@ -698,12 +849,11 @@ static se_status se_read_range(SNDFILE *snd, const char *path, unsigned nch, uns
 /* r[a, e) recomputed from the file, bit for bit what the pass computed: the chunk starts at a
  * multiple of the step and ends at one (or at the record's end), as every chunk of the pass does
  * (se_xcorr_run_part). *data receives a malloc'd array of e - a values. */
-static se_status se_window_data(const se_sl *s, SNDFILE *snd, const char *path, unsigned nch,
-                                unsigned ch, const se_xcorr *xc, se_xcorr_work *w, size_t a,
-                                size_t e, double **data, se_error *err)
+static se_status se_window_data(const se_sl *s, se_src *src, const se_xcorr *xc, se_xcorr_work *w,
+                                size_t a, size_t e, double **data, se_error *err)
 {
     size_t step = se_xcorr_step(xc), c = a / step * step, nl, nx;
-    double *x = NULL, *r = NULL, *inter = NULL;
+    double *x = NULL, *r = NULL;
     se_status st;
     nl = (e - c + step - 1) / step * step;
     if (nl > s->n - c)
@@ -712,12 +862,11 @@ static se_status se_window_data(const se_sl *s, SNDFILE *snd, const char *path, 
     *data = NULL;
     x = malloc(nx * sizeof *x);
     r = malloc(nl * sizeof *r);
-    inter = nch > 1 ? malloc((size_t)SE_STREAM_READ_FRAMES * nch * sizeof *inter) : NULL;
-    if (x == NULL || r == NULL || (nch > 1 && inter == NULL)) {
+    if (x == NULL || r == NULL) {
         st = se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate a window of %zu lags", nl);
         goto done;
     }
-    if ((st = se_read_range(snd, path, nch, ch, c, nx, x, inter, err)) != SE_OK)
+    if ((st = se_read_range(src, c, nx, x, err)) != SE_OK)
         goto done;
     if ((st = se_xcorr_run_part(xc, w, x, nx, nl, r, err)) != SE_OK)
         goto done;
@@ -727,18 +876,16 @@ static se_status se_window_data(const se_sl *s, SNDFILE *snd, const char *path, 
 done:
     free(x);
     free(r);
-    free(inter);
     return st;
 }
 
 /* The reading side of a pass: fill buf up to want samples (after the tail already there), check
- * they are finite, track clipping. Runs beside the correlation of the chunk before. */
+ * they are finite, track clipping, SE_STREAM_READ_FRAMES at a time while they are in cache. Runs
+ * beside the correlation of the chunk before. */
 typedef struct se_reader {
     se_sl *s;
-    SNDFILE *snd;
-    const char *path;
-    unsigned nch, ch;
-    double *buf, *inter;
+    se_src *src;
+    double *buf;
     size_t have, want, readpos; /* readpos: frame of the file at buf[have] */
     se_status st;
     se_error err;
@@ -747,132 +894,299 @@ typedef struct se_reader {
 static void *se_reader_run(void *arg)
 {
     se_reader *rd = arg;
-    size_t take, bad;
+    size_t take, bad, done;
     se_error_clear(&rd->err);
     rd->st = SE_OK;
     if (rd->have >= rd->want || rd->readpos >= rd->s->n)
         return NULL;
     take = rd->want - rd->have < rd->s->n - rd->readpos ? rd->want - rd->have : rd->s->n - rd->readpos;
-    rd->st = se_read_range(rd->snd, rd->path, rd->nch, rd->ch, SIZE_MAX, take, rd->buf + rd->have,
-                           rd->inter, &rd->err);
-    if (rd->st != SE_OK)
-        return NULL;
-    if ((bad = se_first_bad(rd->buf + rd->have, take)) < take) {
-        double v = rd->buf[rd->have + bad];
-        rd->st = se_fail(&rd->err, SE_ERR_DATA, "%s: sample %zu (channel %u) is %s", rd->path,
-                         rd->readpos + bad, rd->ch + 1, isnan(v) ? "NaN" : "infinite");
-        return NULL;
+    for (done = 0; done < take;) {
+        size_t piece = take - done < SE_STREAM_READ_FRAMES ? take - done : SE_STREAM_READ_FRAMES;
+        double *x = rd->buf + rd->have + done;
+        rd->st = se_read_range(rd->src, SIZE_MAX, piece, x, &rd->err);
+        if (rd->st != SE_OK)
+            return NULL;
+        bad = rd->s->pass0 ? se_first_bad(x, piece) : se_clip_block(rd->s, rd->readpos + done, x, piece);
+        if (bad < piece) {
+            rd->st = se_fail(&rd->err, SE_ERR_DATA, "%s: sample %zu (channel %u) is %s", rd->src->path,
+                             rd->readpos + done + bad, rd->src->ch + 1,
+                             isnan(x[bad]) ? "NaN" : "infinite");
+            return NULL;
+        }
+        done += piece;
     }
-    if (!rd->s->pass0)
-        se_clip_block(rd->s, rd->readpos, rd->buf + rd->have, take);
     rd->have += take;
     rd->readpos += take;
     return NULL;
 }
 
+/* The correlating side of a pass (se_pass): two input buffers, the next chunk read (a third,
+ * mostly waiting thread) while this one is correlated, the m - 1 samples of overlap copied from
+ * one to the other; with two threads, in a thread of its own, r handed over through a ring of
+ * SE_STREAM_RING chunks so that the caller scans one chunk while the next are correlated (and
+ * the reference's autocorrelation is made while the first ones are). The reader touches only the
+ * clipping fields of s, the caller's scan the others. */
+typedef struct se_prod {
+    se_sl *s;
+    const se_xcorr *xc;
+    se_xcorr_work *const *w;
+    unsigned threads;
+    size_t lc, base;
+    double *xb[2];
+    int cur;
+    se_reader rd;
+    double *ring[SE_STREAM_RING];
+    size_t rc0[SE_STREAM_RING], rc1[SE_STREAM_RING];
+    size_t made, used; /* chunks correlated, chunks scanned */
+    int stop, finished;
+    pthread_mutex_t mu;
+    pthread_cond_t cv;
+    se_status st;
+    se_error err;
+} se_prod;
+
+/* The chunk at P->base into r [size: threads lc]; *lags_out: its lag count. */
+static se_status se_prod_step(se_prod *P, double *r, size_t *lags_out, se_error *err)
+{
+    size_t m = P->s->m, n = P->s->n, lc = P->lc, have = P->rd.have, nsub, lags, t;
+    const double *x = P->xb[P->cur];
+    int eof = P->rd.readpos == n, rspawn = 0, spawned = 0;
+    se_worker wk[2];
+    pthread_t tid, rtid;
+    lags = eof ? have : have - (m - 1);
+    nsub = (lags + lc - 1) / lc;
+    if (nsub > P->threads)
+        nsub = P->threads;
+    for (t = 0; t < nsub; t++) {
+        size_t off = t * lc;
+        wk[t].xc = P->xc;
+        wk[t].w = P->w[t];
+        wk[t].x = x + off;
+        wk[t].nout = lags - off < lc ? lags - off : lc;
+        wk[t].n = have - off < wk[t].nout + m - 1 ? have - off : wk[t].nout + m - 1;
+        wk[t].r = r + off;
+    }
+    lags = 0;
+    for (t = 0; t < nsub; t++)
+        lags += wk[t].nout;
+    /* the next chunk: the overlap, then what the file gives */
+    P->rd.buf = P->xb[1 - P->cur];
+    P->rd.have = have - lags;
+    memcpy(P->rd.buf, x + lags, P->rd.have * sizeof *x);
+    P->rd.st = SE_OK;
+    if (!eof && P->threads > 1)
+        rspawn = pthread_create(&rtid, NULL, se_reader_run, &P->rd) == 0;
+    if (nsub == 2)
+        spawned = pthread_create(&tid, NULL, se_worker_run, &wk[1]) == 0;
+    se_worker_run(&wk[0]);
+    if (nsub == 2) {
+        if (spawned)
+            pthread_join(tid, NULL);
+        else
+            se_worker_run(&wk[1]); /* no thread available: same values serially */
+    }
+    if (rspawn)
+        pthread_join(rtid, NULL);
+    for (t = 0; t < nsub; t++)
+        if (wk[t].st != SE_OK)
+            return se_fail(err, wk[t].st, "%s", wk[t].err.message);
+    if (!eof && !rspawn)
+        se_reader_run(&P->rd); /* one thread, or none to spare: read now */
+    if (P->rd.st != SE_OK)
+        return se_fail(err, P->rd.st, "%s", P->rd.err.message);
+    *lags_out = lags;
+    P->cur = 1 - P->cur;
+    return SE_OK;
+}
+
+/* First fill of the input buffer. */
+static se_status se_prod_first(se_prod *P, se_error *err)
+{
+    se_reader_run(&P->rd);
+    if (P->rd.st != SE_OK)
+        return se_fail(err, P->rd.st, "%s", P->rd.err.message);
+    return SE_OK;
+}
+
+static void *se_prod_run(void *arg)
+{
+    se_prod *P = arg;
+    se_status st;
+    se_error_clear(&P->err);
+    st = se_prod_first(P, &P->err);
+    while (st == SE_OK && P->base < P->s->n) {
+        size_t slot, lags = 0;
+        pthread_mutex_lock(&P->mu);
+        while (P->made - P->used == SE_STREAM_RING && !P->stop)
+            pthread_cond_wait(&P->cv, &P->mu);
+        slot = P->made % SE_STREAM_RING;
+        if (P->stop) {
+            pthread_mutex_unlock(&P->mu);
+            break;
+        }
+        pthread_mutex_unlock(&P->mu);
+        if ((st = se_prod_step(P, P->ring[slot], &lags, &P->err)) != SE_OK)
+            break;
+        pthread_mutex_lock(&P->mu);
+        P->rc0[slot] = P->base;
+        P->rc1[slot] = P->base + lags;
+        P->made++;
+        pthread_cond_broadcast(&P->cv);
+        pthread_mutex_unlock(&P->mu);
+        P->base += lags;
+    }
+    pthread_mutex_lock(&P->mu);
+    P->st = st;
+    P->finished = 1;
+    pthread_cond_broadcast(&P->cv);
+    pthread_mutex_unlock(&P->mu);
+    return NULL;
+}
+
 /* One pass over the file: read the response channel, correlate chunks of lc lags (threads at a
- * time), hand r to se_sl_chunk in order. With two threads the next chunk is read (a third,
- * mostly waiting thread) while this one is correlated: two input buffers, the m - 1 samples of
- * overlap copied from one to the other. The reader touches only the clipping fields of s. */
-static se_status se_pass(se_sl *s, SNDFILE *snd, const char *path, unsigned nch, unsigned ch,
-                         const se_xcorr *xc, se_xcorr_work *const *w, unsigned threads, size_t lc,
+ * time), hand r to se_sl_chunk in order. hook (may be NULL) runs in this thread once the
+ * correlation has started, before the first chunk is scanned. */
+static se_status se_pass(se_sl *s, se_src *src, const se_xcorr *xc, se_xcorr_work *const *w,
+                         unsigned threads, size_t lc, se_pass_hook hook, void *hook_ctx,
                          se_error *err)
 {
-    size_t m = s->m, n = s->n, cap = threads * lc + m, want = threads * lc + m - 1, base = 0, t;
-    double *xb[2] = {NULL, NULL}, *r = NULL, *inter = NULL;
-    int cur = 0;
-    se_reader rd;
-    se_status st = SE_OK;
+    size_t m = s->m, n = s->n, cap = threads * lc + m, i, nring = threads > 1 ? SE_STREAM_RING : 1;
+    se_prod P;
+    pthread_t ptid;
+    int threaded = 0, sync_ok = 0;
+    se_status st = SE_OK, pst;
 
-    if (sf_seek(snd, 0, SEEK_SET) != 0)
-        return se_fail(err, SE_ERR_IO, "%s: cannot rewind for another pass", path);
-    xb[0] = malloc(cap * sizeof *xb[0]);
-    xb[1] = malloc(cap * sizeof *xb[1]);
-    r = malloc(threads * lc * sizeof *r);
-    inter = nch > 1 ? malloc((size_t)SE_STREAM_READ_FRAMES * nch * sizeof *inter) : NULL;
-    if (xb[0] == NULL || xb[1] == NULL || r == NULL || (nch > 1 && inter == NULL)) {
+    if (sf_seek(src->snd, 0, SEEK_SET) != 0)
+        return se_fail(err, SE_ERR_IO, "%s: cannot rewind for another pass", src->path);
+    memset(&P, 0, sizeof P);
+    P.s = s;
+    P.xc = xc;
+    P.w = w;
+    P.threads = threads;
+    P.lc = lc;
+    P.xb[0] = malloc(cap * sizeof *P.xb[0]);
+    P.xb[1] = malloc(cap * sizeof *P.xb[1]);
+    for (i = 0; i < nring; i++)
+        P.ring[i] = malloc(threads * lc * sizeof *P.ring[i]);
+    if (P.xb[0] == NULL || P.xb[1] == NULL || P.ring[nring - 1] == NULL ||
+        (nring > 1 && P.ring[0] == NULL)) {
         st = se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate chunk buffers of %zu samples", cap);
         goto done;
     }
-    memset(&rd, 0, sizeof rd);
-    rd.s = s;
-    rd.snd = snd;
-    rd.path = path;
-    rd.nch = nch;
-    rd.ch = ch;
-    rd.inter = inter;
-    rd.buf = xb[0];
-    rd.want = want;
-    se_reader_run(&rd);
-    if ((st = rd.st) != SE_OK) {
-        se_fail(err, st, "%s", rd.err.message);
-        goto done;
-    }
-    while (base < n) {
-        size_t have = rd.have, readpos = rd.readpos, nsub, lags;
-        const double *x = xb[cur];
-        int eof = readpos == n, rspawn = 0;
-        se_worker wk[2];
-        pthread_t tid, rtid;
-        int spawned = 0;
-        lags = eof ? have : have - (m - 1);
-        nsub = (lags + lc - 1) / lc;
-        if (nsub > threads)
-            nsub = threads;
-        for (t = 0; t < nsub; t++) {
-            size_t off = t * lc;
-            wk[t].xc = xc;
-            wk[t].w = w[t];
-            wk[t].x = x + off;
-            wk[t].nout = lags - off < lc ? lags - off : lc;
-            wk[t].n = have - off < wk[t].nout + m - 1 ? have - off : wk[t].nout + m - 1;
-            wk[t].r = r + off;
+    for (i = 0; i < nring; i++)
+        if (P.ring[i] == NULL) {
+            st = se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate chunk buffers of %zu samples", cap);
+            goto done;
         }
-        lags = 0;
-        for (t = 0; t < nsub; t++)
-            lags += wk[t].nout;
-        /* the next chunk: the overlap, then what the file gives */
-        rd.buf = xb[1 - cur];
-        rd.have = have - lags;
-        memcpy(rd.buf, x + lags, rd.have * sizeof *x);
-        rd.st = SE_OK;
-        if (!eof && threads > 1)
-            rspawn = pthread_create(&rtid, NULL, se_reader_run, &rd) == 0;
-        if (nsub == 2)
-            spawned = pthread_create(&tid, NULL, se_worker_run, &wk[1]) == 0;
-        se_worker_run(&wk[0]);
-        if (nsub == 2) {
-            if (spawned)
-                pthread_join(tid, NULL);
-            else
-                se_worker_run(&wk[1]); /* no thread available: same values serially */
-        }
-        if (rspawn)
-            pthread_join(rtid, NULL);
-        for (t = 0; t < nsub; t++)
-            if (wk[t].st != SE_OK) {
-                st = se_fail(err, wk[t].st, "%s", wk[t].err.message);
-                goto done;
+    P.rd.s = s;
+    P.rd.src = src;
+    P.rd.buf = P.xb[0];
+    P.rd.want = threads * lc + m - 1;
+    if (threads > 1 && pthread_mutex_init(&P.mu, NULL) == 0) {
+        if (pthread_cond_init(&P.cv, NULL) == 0) {
+            sync_ok = 1;
+            threaded = pthread_create(&ptid, NULL, se_prod_run, &P) == 0;
+            if (!threaded) {
+                pthread_cond_destroy(&P.cv);
+                pthread_mutex_destroy(&P.mu);
+                sync_ok = 0;
             }
-        if ((st = se_sl_chunk(s, base, base + lags, r, err)) != SE_OK)
-            goto done;
-        if (!eof && !rspawn)
-            se_reader_run(&rd); /* one thread, or none to spare: read now */
-        if ((st = rd.st) != SE_OK) {
-            se_fail(err, st, "%s", rd.err.message);
-            goto done;
+        } else {
+            pthread_mutex_destroy(&P.mu);
         }
-        base += lags;
-        cur = 1 - cur;
     }
-    if (!s->pass0)
+    if (hook != NULL)
+        st = hook(hook_ctx, err);
+    if (!threaded) {
+        /* one thread (or none to spare): correlate, then scan, chunk after chunk */
+        if (st == SE_OK)
+            st = se_prod_first(&P, err);
+        while (st == SE_OK && P.base < n) {
+            size_t lags = 0;
+            if ((st = se_prod_step(&P, P.ring[0], &lags, err)) != SE_OK)
+                break;
+            st = se_sl_chunk(s, P.base, P.base + lags, P.ring[0], err);
+            P.base += lags;
+        }
+    } else {
+        while (st == SE_OK) {
+            size_t slot;
+            pthread_mutex_lock(&P.mu);
+            while (P.used == P.made && !P.finished)
+                pthread_cond_wait(&P.cv, &P.mu);
+            if (P.used == P.made) { /* finished, all scanned */
+                pthread_mutex_unlock(&P.mu);
+                break;
+            }
+            slot = P.used % SE_STREAM_RING;
+            pthread_mutex_unlock(&P.mu);
+            st = se_sl_chunk(s, P.rc0[slot], P.rc1[slot], P.ring[slot], err);
+            pthread_mutex_lock(&P.mu);
+            P.used++;
+            pthread_cond_broadcast(&P.cv);
+            pthread_mutex_unlock(&P.mu);
+        }
+        pthread_mutex_lock(&P.mu);
+        P.stop = 1;
+        pthread_cond_broadcast(&P.cv);
+        pthread_mutex_unlock(&P.mu);
+        pthread_join(ptid, NULL);
+        pst = P.st;
+        if (st == SE_OK && pst != SE_OK)
+            st = se_fail(err, pst, "%s", P.err.message);
+    }
+    if (st == SE_OK && !s->pass0)
         se_clip_close(s);
 done:
-    free(xb[0]);
-    free(xb[1]);
-    free(r);
-    free(inter);
+    if (sync_ok) {
+        pthread_cond_destroy(&P.cv);
+        pthread_mutex_destroy(&P.mu);
+    }
+    free(P.xb[0]);
+    free(P.xb[1]);
+    for (i = 0; i < nring; i++)
+        free(P.ring[i]);
     return st;
+}
+
+/* Where the direct arrival's r is kept: D = r[d0, d1) around the argmax range [lo, hi). */
+static se_status se_sl_direct(se_sl *s, se_error *err)
+{
+    size_t h = SE_STREAM_DIRECT_HALF > s->left + 2 ? SE_STREAM_DIRECT_HALF : s->left + 2;
+    s->d0 = s->lo > h ? s->lo - h : 0;
+    s->d1 = s->n - s->hi > h ? s->hi + h : s->n;
+    s->dbuf = malloc((s->d1 - s->d0) * sizeof *s->dbuf);
+    if (s->dbuf == NULL)
+        return se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate %zu lags", s->d1 - s->d0);
+    return SE_OK;
+}
+
+/* The first pass's hook (se_pass_hook): the reference's autocorrelation and the reaches that
+ * follow from it (se_detect's margin, the core around candidates, what is kept before one), made
+ * while the first chunks are correlated; then D when the time base is known. */
+typedef struct se_prep {
+    se_sl *s;
+    const double *ref;
+    size_t m;
+    se_acf **acf;
+    int direct;
+} se_prep;
+
+static se_status se_prep_run(void *ctx, se_error *err)
+{
+    se_prep *p = ctx;
+    se_sl *s = p->s;
+    *p->acf = se_acf_create(p->ref, p->m, err);
+    if (*p->acf == NULL)
+        return err ? err->code : SE_ERR_NOMEM;
+    s->ext = se_acf_half_length(*p->acf);
+    s->win = se_acf_extent(*p->acf, 1e-6);
+    if (s->win < 16)
+        s->win = 16;
+    s->mg = s->ext + s->win + 2;
+    s->reach = 2 * s->ext + s->win + 4;
+    s->left = s->reach + s->mg;
+    return p->direct ? se_sl_direct(s, err) : SE_OK;
 }
 
 se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
@@ -898,8 +1212,12 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
     double lag0 = 0.0, a0 = 0.0, sigma, beta, beta_crb, kthr = 0.0, thr = 0.0;
     se_xcorr_config xcfg;
     se_noise_profile prof, wprof;
+    se_src src;
+    se_prep prep;
     int varies = 0;
 
+    memset(&src, 0, sizeof src);
+    memset(&prep, 0, sizeof prep);
     if (res == NULL)
         return se_fail(err, SE_ERR_ARG, "stream locate: no result record");
     memset(res, 0, sizeof *res);
@@ -981,6 +1299,21 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
     }
     if (n < 16) {
         st = se_fail(err, SE_ERR_DATA, "locate: the response has only %zu samples", n);
+        goto done;
+    }
+    src.snd = snd;
+    src.path = path;
+    src.nch = nch;
+    src.ch = scfg.channel;
+    src.rawf = (sfi.format & SF_FORMAT_SUBMASK) == SF_FORMAT_FLOAT &&
+               sf_command(snd, SFC_RAW_DATA_NEEDS_ENDSWAP, NULL, 0) == SF_FALSE;
+    if (src.rawf)
+        src.fbuf = malloc((size_t)SE_STREAM_READ_FRAMES * nch * sizeof *src.fbuf);
+    else if (nch > 1)
+        src.inter = malloc((size_t)SE_STREAM_READ_FRAMES * nch * sizeof *src.inter);
+    if ((src.rawf && src.fbuf == NULL) || (!src.rawf && nch > 1 && src.inter == NULL)) {
+        st = se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate a read buffer of %u x %d samples",
+                     nch, SE_STREAM_READ_FRAMES);
         goto done;
     }
 
@@ -1070,11 +1403,6 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
             st = err ? err->code : SE_ERR_NOMEM;
             goto done;
         }
-    acf = se_acf_create(ref, m, err);
-    if (acf == NULL) {
-        st = err ? err->code : SE_ERR_NOMEM;
-        goto done;
-    }
     step = se_xcorr_step(xc);
     lc = scfg.block ? scfg.block : SE_STREAM_DEFAULT_BLOCK;
     lc = lc < step ? step : lc / step * step;
@@ -1085,13 +1413,10 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
     s.m = m;
     s.fa = cfg.false_alarms;
     s.track = cfg.noise_tracking != 0;
-    s.ext = se_acf_half_length(acf);
-    s.win = se_acf_extent(acf, 1e-6);
-    if (s.win < 16)
-        s.win = 16;
-    s.mg = s.ext + s.win + 2;
-    s.reach = 2 * s.ext + s.win + 4;
-    s.left = s.reach + s.mg;
+    prep.s = &s;
+    prep.ref = ref;
+    prep.m = m;
+    prep.acf = &acf;
     s.plen = SE_STREAM_PROVISIONAL;
     s.pbuf = malloc(s.plen * sizeof *s.pbuf);
     if (s.pbuf == NULL) {
@@ -1113,7 +1438,7 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
         /* no time base: a pass for the first lag reaching half the largest |r| */
         s.pass0 = 1;
         info->passes++;
-        if ((st = se_pass(&s, snd, path, nch, scfg.channel, xc, w, threads, lc, err)) != SE_OK)
+        if ((st = se_pass(&s, &src, xc, w, threads, lc, se_prep_run, &prep, err)) != SE_OK)
             goto done;
         s.pass0 = 0;
         for (i = s.pm_head; i < s.pm_n; i++)
@@ -1127,23 +1452,17 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
         s.lo = s.pm_i[i];
         s.hi = s.lo + m + 1 < n ? s.lo + m + 1 : n;
     }
-    {
-        size_t h = SE_STREAM_DIRECT_HALF > s.left + 2 ? SE_STREAM_DIRECT_HALF : s.left + 2;
-        s.d0 = s.lo > h ? s.lo - h : 0;
-        s.d1 = n - s.hi > h ? s.hi + h : n;
-        s.dbuf = malloc((s.d1 - s.d0) * sizeof *s.dbuf);
-        if (s.dbuf == NULL) {
-            st = se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate %zu lags", s.d1 - s.d0);
-            goto done;
-        }
-    }
+    if (acf != NULL && (st = se_sl_direct(&s, err)) != SE_OK)
+        goto done;
+    prep.direct = 1;
 
     for (;;) {
         se_noise nz;
         size_t cnt;
         s.used = scfg.noise_samples ? scfg.noise_samples : SE_STREAM_DEFAULT_NOISE;
         info->passes++;
-        if ((st = se_pass(&s, snd, path, nch, scfg.channel, xc, w, threads, lc, err)) != SE_OK)
+        st = se_pass(&s, &src, xc, w, threads, lc, acf == NULL ? se_prep_run : NULL, &prep, err);
+        if (st != SE_OK)
             goto done;
         if (!s.varies) {
             st = se_fail(err, SE_ERR_DATA, "the response is constant (every sample is %.6g)", s.first_v);
@@ -1264,7 +1583,7 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
             goto done;
         len = e - a;
         free(wdata);
-        st = se_window_data(&s, snd, path, nch, scfg.channel, xc, w[0], a, e, &wdata, err);
+        st = se_window_data(&s, &src, xc, w[0], a, e, &wdata, err);
         if (st != SE_OK)
             goto done;
         info->windows++;
@@ -1349,6 +1668,8 @@ done:
     se_distmap_destroy(own_map);
     free(ref);
     free(pbuf_pulse);
+    free(src.fbuf);
+    free(src.inter);
     if (snd != NULL)
         sf_close(snd);
     if (st != SE_OK)
