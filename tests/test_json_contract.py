@@ -44,6 +44,8 @@ EVENT_KEYS = {
     "impedance": lambda v: v in ("increase", "decrease"),
     "class": lambda v: v in ("fixed-like", "free-like", "open-like", "short-like"),
     "reflection": is_num, "snr_db": is_num, "multiple": lambda v: isinstance(v, bool),
+    "predicted_multiple": is_num,
+    "previous_shot": lambda v: v is None or (isinstance(v, int) and not isinstance(v, bool) and v >= 1),
 }
 TOP_KEYS = {
     "input_file": lambda v: isinstance(v, str), "input_sha256": lambda v: isinstance(v, str),
@@ -51,7 +53,25 @@ TOP_KEYS = {
     "speed_m_s": is_num, "quantity": lambda v: isinstance(v, str), "dead_zone_m": is_num,
     "noise_level": is_num, "threshold": is_num, "tool_version": lambda v: isinstance(v, str),
     "events": lambda v: isinstance(v, list),
+    "ring_down_s": lambda v: v is None or (is_num(v) and v >= 0),
+    "shot_interval_s": lambda v: is_num(v) and v >= 0,
+    "shots_overlap": lambda v: isinstance(v, bool),
+    "attenuation_method": lambda v: v in (None, "given", "known reflector", "end multiples"),
+    "attenuation_repeats": lambda v: isinstance(v, int) and not isinstance(v, bool) and v >= 0,
 }
+
+
+def documented_keys():
+    """The keys of the tables of docs/json.md (first column, in backquotes)."""
+    src = os.environ.get("SE_SOURCE_DIR")
+    if not src:
+        return None
+    keys = set()
+    with open(os.path.join(src, "docs", "json.md"), encoding="utf-8") as f:
+        for line in f:
+            if line.startswith("| `"):
+                keys.add(line.split("`")[1])
+    return keys
 
 
 def contract(doc, path, what, speed, quantity, electrical):
@@ -72,6 +92,13 @@ def contract(doc, path, what, speed, quantity, electrical):
           doc["threshold"] > doc["noise_level"] > 0, "%s: threshold above the noise level" % what)
     check(is_num(doc.get("dead_zone_m")) and doc["dead_zone_m"] > 0, "%s: dead zone > 0" % what)
     evs = doc.get("events", [])
+    doc_keys = documented_keys()
+    if doc_keys is not None:  # docs/json.md stays true: every key written is described there
+        for k in doc:
+            check(k in doc_keys, "%s: top-level key %s is in docs/json.md" % (what, k))
+        for e in evs:
+            for k in e:
+                check(k in doc_keys, "%s: event key %s is in docs/json.md" % (what, k))
     check(len(evs) >= 2, "%s: at least the two reflectors (%d events)" % (what, len(evs)))
     for i, e in enumerate(evs):
         for k, ok in EVENT_KEYS.items():

@@ -104,7 +104,20 @@ typedef struct se_event {
                                       fit of overlapping echoes (fitecho.h) */
     int in_dead_zone;              /* 1 for an echo found inside the dead zone (in
                                       se_locate_result.dead_zone_events only): low confidence */
+    int previous_shot;             /* with multiple: 0 when the reverberation of this shot explains
+                                      it, k >= 1 when the echoes of the shot k taps earlier do
+                                      (taps closer than the line's ring-down) */
+    double predicted;              /* the multiple field predicted at the event from the primaries
+                                      before it (and the previous shots'), reflection units: the
+                                      sum of every lattice path within the main lobe, weighted by
+                                      the autocorrelation; 0 when nothing is predicted there */
 } se_event;
+
+/* How se_locate_result.attenuation_db_per_m was obtained. */
+#define SE_ATTEN_NONE 0            /* unknown (NaN) */
+#define SE_ATTEN_GIVEN 1           /* cfg.attenuation_db_per_m */
+#define SE_ATTEN_KNOWN_REFLECTOR 2 /* a matched expected event of known coefficient */
+#define SE_ATTEN_END_MULTIPLES 3   /* the decay of the end's repeats at k t_end */
 
 /* Clipped runs remembered per result (more: every event is flagged). */
 #define SE_MAX_CLIP_RUNS 64
@@ -171,9 +184,27 @@ typedef struct se_locate_result {
                                       cancel; overlapped candidates are left out. 0 when nothing
                                       supports it (then r_s = 0 is used) */
     double attenuation_db_per_m;   /* one-way attenuation, dB/m (given or estimated); NaN unknown */
-    int attenuation_estimated;     /* 1 when estimated from a matched expected event of known
-                                      coefficient: g = |A seen| / |(1 + r_s) r T|, alpha from
-                                      g = 10^(-2 alpha d / 20) */
+    int attenuation_estimated;     /* 1 when estimated (attenuation_method 2 or 3) */
+    int attenuation_method;        /* SE_ATTEN_*: from a matched expected event of known
+                                      coefficient (g = |A seen| / |(1 + r_s) r T|, alpha from
+                                      g = 10^(-2 alpha d / 20)), or, with no such event, from the
+                                      end's repeats: A_k = r_s^(k-1) (r_end g^2 T^2)^k at k t_end
+                                      (weighted straight-line fit of log |A_k| over k, two
+                                      unknowns, so r_s need not be known), |r_end| = 1 assumed
+                                      (fixed or free end, break): alpha = -20 log10 |g^2| / (2 L) */
+    double attenuation_uncertainty_db_per_m; /* one standard uncertainty of an estimated
+                                      attenuation (from the amplitude uncertainties), NaN else */
+    size_t attenuation_repeats;    /* with SE_ATTEN_END_MULTIPLES: repeats fitted (k = 1..) */
+    /* Ring-down: how long the line's reverberation (source end, strong reflectors, end) stays
+     * above the detection threshold, from r_s and the primaries' seen amplitudes (which carry the
+     * losses): max over primaries of t_i (1 + log(threshold / |a_i|) / log |r_s a_i|), the
+     * slowest decay; +inf when some |r_s a_i| >= 1. With several shots (taps) shot_interval_s is
+     * the mean interval, and shots_overlap = 1 when it is shorter than the ring-down: the
+     * previous taps' echoes then lie in this one (events they explain are labelled multiple with
+     * previous_shot = k). */
+    double ring_down_s;
+    double shot_interval_s;        /* 0 for a single shot */
+    int shots_overlap;
     /* Echoes found inside the dead zone, flagged (never hidden, never in events): owned. */
     se_event *dead_zone_events;    /* [size: n_dead_zone_events] */
     size_t n_dead_zone_events;
@@ -191,6 +222,11 @@ void se_locate_result_free(se_locate_result *res);
  * res->expected_found, res->end_missing and res->break_event. */
 se_status se_match_expected(se_locate_result *res, const struct se_expected_event *expected,
                             size_t n_expected, double z, se_error *err);
+
+/* The field engineer's warning when the taps are closer together than the line's ring-down
+ * (res->shots_overlap), written into buf[size: size] NUL-terminated (cut to fit); returns 1 when
+ * there is a warning, 0 (buf set to "") when not. */
+int se_locate_overlap_warning(const se_locate_result *res, char *buf, size_t size);
 
 /* Class word of an event: "fixed-like", "free-like", "open-like" or "short-like". */
 const char *se_event_class(const se_locate_result *res, const se_event *ev);

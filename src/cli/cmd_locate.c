@@ -442,6 +442,11 @@ located:
                 res.direct_clipped ? "the outgoing pulse itself is clipped, so every reflection "
                                      "estimate is unreliable; events"
                                    : "events");
+    {
+        char wbuf[512];
+        if (se_locate_overlap_warning(&res, wbuf, sizeof wbuf))
+            fprintf(stderr, "strandecho: warning: %s: %s\n", path, wbuf);
+    }
     se_run_info_init(&info);
     {
         info.input_file = path;
@@ -526,7 +531,10 @@ static void se_print_table(const se_locate_result *res, const se_recording *rec,
         }
         if (ev->low_confidence)
             snprintf(note + strlen(note), sizeof note - strlen(note), "  low confidence");
-        if (ev->multiple)
+        if (ev->multiple && ev->previous_shot > 0)
+            snprintf(note + strlen(note), sizeof note - strlen(note), "  multiple (tap -%d)",
+                     ev->previous_shot);
+        else if (ev->multiple)
             snprintf(note + strlen(note), sizeof note - strlen(note), "  multiple");
         if (ev->clipped || res->direct_clipped)
             snprintf(note + strlen(note), sizeof note - strlen(note), "  clipped");
@@ -575,10 +583,19 @@ static void se_print_table(const se_locate_result *res, const se_recording *rec,
                res->shots_used);
     if (res->source_reflection_estimated)
         printf("source-end coefficient estimated from the data: %+.3f\n", res->source_reflection);
-    if (res->attenuation_estimated)
+    if (res->attenuation_estimated && res->attenuation_method == SE_ATTEN_END_MULTIPLES)
+        printf("attenuation estimated from the decay of the end's %zu repeats: %.4g +/- %.2g dB/m "
+               "(one standard uncertainty; a full reflection at the end assumed)\n",
+               res->attenuation_repeats, res->attenuation_db_per_m,
+               res->attenuation_uncertainty_db_per_m);
+    else if (res->attenuation_estimated)
         printf("attenuation estimated from a known reflector: %.4g dB/m (coefficients at the "
                "discontinuities have it removed)\n",
                res->attenuation_db_per_m);
+    if (res->shots_found > 1 && res->shot_interval_s > 0.0)
+        printf("the line rings for %.3g s after a tap; the taps are %.3g s apart%s\n",
+               res->ring_down_s, res->shot_interval_s,
+               res->shots_overlap ? " (they overlap: see the warning)" : "");
     for (i = 0; i < res->n_dead_zone_events; i++)
         printf("inside the dead zone (low confidence): %s echo at %.3f %s, reflection %+.3f\n",
                se_event_class(res, &res->dead_zone_events[i]),

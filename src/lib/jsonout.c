@@ -110,6 +110,28 @@ char *se_result_json(const se_locate_result *res, const se_run_info *info, se_er
     bad |= se_jset(root, "attenuation_db_per_m", se_jnum(res->attenuation_db_per_m));
     bad |= se_jset(root, "attenuation_estimated", json_boolean(res->attenuation_estimated));
     {
+        static const char *const how[] = {NULL, "given", "known reflector", "end multiples"};
+        int mth = res->attenuation_method;
+        bad |= se_jset(root, "attenuation_method",
+                       mth > 0 && mth <= SE_ATTEN_END_MULTIPLES ? json_string(how[mth])
+                                                                : json_null());
+    }
+    bad |= se_jset(root, "attenuation_uncertainty_db_per_m",
+                   se_jnum(res->attenuation_uncertainty_db_per_m));
+    bad |= se_jset(root, "attenuation_repeats", json_integer((json_int_t)res->attenuation_repeats));
+    bad |= se_jset(root, "ring_down_s", se_jnum(res->ring_down_s));
+    bad |= se_jset(root, "shot_interval_s", se_jnum(res->shot_interval_s));
+    bad |= se_jset(root, "shots_overlap", json_boolean(res->shots_overlap));
+    {
+        char wbuf[512];
+        json_t *warn = json_array();
+        if (warn == NULL)
+            goto nomem;
+        if (se_locate_overlap_warning(res, wbuf, sizeof wbuf))
+            bad |= json_array_append_new(warn, json_string(wbuf));
+        bad |= se_jset(root, "warnings", warn);
+    }
+    {
         json_t *dz = json_array();
         if (dz == NULL)
             goto nomem;
@@ -148,6 +170,10 @@ char *se_result_json(const se_locate_result *res, const se_run_info *info, se_er
         bad |= se_jset(e, "low_confidence", json_boolean(ev->low_confidence));
         bad |= se_jset(e, "clipped", json_boolean(ev->clipped || res->direct_clipped));
         bad |= se_jset(e, "multiple", json_boolean(ev->multiple));
+        bad |= se_jset(e, "predicted_multiple", se_jnum(ev->predicted));
+        bad |= se_jset(e, "previous_shot",
+                       ev->multiple && ev->previous_shot > 0 ? json_integer(ev->previous_shot)
+                                                             : json_null());
         bad |= se_jset(e, "expected",
                        ev->expected >= 0 && (size_t)ev->expected < info->n_expected
                            ? json_string(info->expected[ev->expected].name)

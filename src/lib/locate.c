@@ -17,6 +17,7 @@
 #include "strandecho/distmap.h"
 #include "strandecho/fitecho.h"
 #include "strandecho/line.h"
+#include "strandecho/simulate.h"
 #include "strandecho/stack.h"
 #include "strandecho/xcorr.h"
 
@@ -30,14 +31,18 @@
 static double se_robust_sigma(const double *x, size_t n, se_error *err, int *ok);
 static se_status se_find_direct(const double *r, size_t n, const se_locate_config *cfg,
                                 size_t ref_begin, size_t m, size_t *k0, se_error *err);
-static void se_label_multiples(se_event *ev, size_t n, double source_r, double resolution_s);
+struct se_locate_stage;
+static se_status se_label_multiples(se_event *ev, size_t n, const se_locate_stage *sg,
+                                    se_locate_result *res, double *spread_out, se_error *err);
+static void se_ring_and_decay(const se_locate_stage *sg, se_locate_result *res,
+                              const double *spread);
 static void se_find_clipping(const double *x, size_t n, se_locate_result *res);
 static int se_window_clipped(const se_locate_result *res, size_t start, size_t m);
 /* Longest pulse (samples) for which overlapping echoes are refitted by least squares. */
 #define SE_FIT_MAX_PULSE 4096
 static se_status se_locate_stack(double **x, size_t *n, const double *pulse, size_t m,
-                                 const se_locate_config *cfg, se_locate_result *res, size_t *pre,
-                                 se_error *err);
+                                 const se_locate_config *cfg, double rate_hz,
+                                 se_locate_result *res, size_t *pre, se_error *err);
 static se_status se_refit_overlaps(const double *x, size_t n, const se_echo_model *mdl,
                                    const se_locate_result *res, const se_peak *direct,
                                    double thr, const se_noise_profile *prof, double kthr,
@@ -396,7 +401,7 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
     res->stack_expected_gain_db = 0.0;
     if (cfg->stacking != SE_STACKING_OFF && m < n) {
         size_t old_n = n, pre = 0;
-        st = se_locate_stack(&x, &n, ref, m, cfg, res, &pre, err);
+        st = se_locate_stack(&x, &n, ref, m, cfg, rate_hz, res, &pre, err);
         if (st != SE_OK)
             goto done;
         if (n != old_n) {
@@ -649,97 +654,436 @@ done:
     return st;
 }
 
-/* Label events explained by earlier ones (REFERENCE.md 2, Backus 1959): the source-end multiple
- * of i and j at t_i + t_j with about r_s r_i r_j; the peg-leg between reflectors i < j at
- * 2 t_j - t_i with about -r_i r_j^2 / (1 - r_i^2) in terms of the amplitudes seen; and anything
- * after a full reflection (|r| > 0.9: end, break, full clamp), where nothing real is seen. A
- * candidate must fall within the timing tolerance, carry the predicted sign and lie within a
- * factor of three of the predicted size. Multiples are never promoted to faults. */
-static void se_label_multiples(se_event *ev, size_t n, double source_r, double resolution_s)
+/* Multiples from a forward model of the primaries (REFERENCE.md 2; P.L. Goupillaud, Geophysics
+ * 26(6), 1961; M.M. Backus, Geophysics 24(2), 1959). Events are taken in delay order. The
+ * primaries found so far make a line (simulate.h): an interface at half each primary's delay,
+ * its coefficient the seen amplitude with the two-way transmissions of the primaries before it
+ * removed (the losses stay inside the coefficients, which is exact for the first bounce and the
+ * end's repeats), the source end r_s; se_sim_arrivals gives every path of it (all orders, to
+ * the record's range, down to a twentieth of the threshold). The field predicted at an event is
+ * the sum of those paths within the main lobe, each weighted by a Gaussian of the pulse's RMS
+ * bandwidth (the autocorrelation's curvature), the primaries' own first bounces left out; with
+ * several taps the previous shots' paths are added at t + k I, weight (N - k) / N in the mean
+ * stack. An event is a multiple when the seen amplitude lies within 3 of its standard
+ * uncertainties plus 30 % of the summed path magnitudes of this tap's prediction (the
+ * primaries' amplitude errors, r_s and losses not modelled, paths that CLEAN sees partly merged)
+ * plus 60 % of the previous taps' (SE_LBL_PREV_F), else a primary with amplitude seen minus
+ * predicted (a reflector hidden under a multiple). Past a full reflection (|r| > 0.9 at the
+ * discontinuity) nothing real is seen. The previous taps' field needs the whole line, whose
+ * early part may hold their echoes: with several taps the line is first built strongest event
+ * first (see below), then the delay-order pass runs with that line's previous-tap field. The
+ * arrival counts are bounded by the floor (raised tenfold up to three times when the lattice
+ * would exceed SE_SIM_MAX_ARRIVALS; without a model no event is labelled by prediction). */
+#define SE_LBL_MAX_P 16
+#define SE_LBL_Q 64.0 /* lattice cells per sample */
+/* The previous taps' paths are of high order (several round trips): the errors of r_s and of the
+ * primaries' amplitudes compound along them, so their allowance is 60 % of their size. */
+#define SE_LBL_PREV_F 0.6
+typedef struct se_lbl_field {
+    se_sim_arrival *a;
+    size_t n;
+} se_lbl_field;
+
+static se_status se_lbl_model(const double *tp, const double *ap, size_t np, double rs,
+                              double horizon_s, double quantum_s, double floor_abs,
+                              se_lbl_field *f, double *rdisc, se_error *err)
 {
-    size_t e, i, j;
-    for (e = 0; e < n; e++) {
-        double te = ev[e].delay_s, ae = ev[e].reflection;
-        double tol = 3.0 * ev[e].delay_uncertainty_s + 0.5 * resolution_s;
-        /* first: past a full reflection nothing real is seen */
-        for (i = 0; i < e; i++)
-            if (!ev[i].multiple && fabs(ev[i].reflection) > 0.9 &&
-                te > ev[i].delay_s + resolution_s) {
-                ev[e].multiple = 1;
-                ev[e].multiple_of[0] = (int)i;
-                break;
-            }
-        for (i = 0; i < e && !ev[e].multiple; i++) {
-            if (ev[i].multiple)
-                continue;
-            for (j = i; j < e; j++) {
-                double ri = ev[i].reflection, rj = ev[j].reflection, pred, tp;
-                if (ev[j].multiple)
-                    continue;
-                /* source end: down, i, source end, j (and the reverse path: twice when i != j) */
-                if (source_r != 0.0) {
-                    size_t k2;
-                    tp = ev[i].delay_s + ev[j].delay_s;
-                    pred = source_r * ri * rj * (i == j ? 1.0 : 2.0);
-                    if (fabs(te - tp) < tol && pred * ae > 0.0 && fabs(ae) < 3.0 * fabs(pred) &&
-                        fabs(ae) > fabs(pred) / 3.0) {
-                        ev[e].multiple = 1;
-                        ev[e].multiple_of[0] = (int)i;
-                        ev[e].multiple_of[1] = (int)j;
-                        break;
-                    }
-                    /* higher orders: a multiple k2 followed by one more bounce off the source
-                     * end and primary j, time t_k2 + t_j, about r_s a_k2 r_j (several paths may
-                     * add up: the factor-of-three window) */
-                    if (i == j) {
-                        for (k2 = 0; k2 < e && !ev[e].multiple; k2++) {
-                            if (!ev[k2].multiple)
-                                continue;
-                            tp = ev[k2].delay_s + ev[j].delay_s;
-                            pred = source_r * ev[k2].reflection * rj;
-                            if (fabs(te - tp) < tol && pred * ae > 0.0 &&
-                                fabs(ae) < 3.0 * fabs(pred) && fabs(ae) > fabs(pred) / 3.0) {
-                                ev[e].multiple = 1;
-                                ev[e].multiple_of[0] = (int)k2;
-                                ev[e].multiple_of[1] = (int)j;
-                            }
-                        }
-                        if (ev[e].multiple)
-                            break;
-                    }
-                }
-                /* peg-leg: an event k at or beyond j (primary or multiple) with one more bounce
-                 * between i and j: time t_k + (t_j - t_i), about a_k (-r_i r_j) / (1 - r_i^2) */
-                if (j > i && fabs(ri) < 1.0) {
-                    size_t k2;
-                    for (k2 = j; k2 < e && !ev[e].multiple; k2++) {
-                        tp = ev[k2].delay_s + (ev[j].delay_s - ev[i].delay_s);
-                        pred = ev[k2].reflection * (-ri * rj) / (1.0 - ri * ri);
-                        if (fabs(te - tp) < tol && pred * ae > 0.0 && fabs(ae) < 3.0 * fabs(pred) &&
-                            fabs(ae) > fabs(pred) / 3.0) {
-                            ev[e].multiple = 1;
-                            ev[e].multiple_of[0] = (int)i;
-                            ev[e].multiple_of[1] = (int)k2;
-                        }
-                    }
-                    if (ev[e].multiple)
-                        break;
-                }
-                /* between reflectors i < j */
-                if (j > i && fabs(ri) < 1.0) {
-                    tp = 2.0 * ev[j].delay_s - ev[i].delay_s;
-                    pred = -ri * rj * rj / (1.0 - ri * ri);
-                    if (fabs(te - tp) < tol && pred * ae > 0.0 && fabs(ae) < 3.0 * fabs(pred) &&
-                        fabs(ae) > fabs(pred) / 3.0) {
-                        ev[e].multiple = 1;
-                        ev[e].multiple_of[0] = (int)i;
-                        ev[e].multiple_of[1] = (int)j;
-                        break;
-                    }
-                }
-            }
+    se_sim_interface ifs[SE_LBL_MAX_P];
+    se_sim_line line;
+    double t2 = 1.0, fl = floor_abs, cut = 0.0;
+    size_t i, k, nm = 0;
+    se_status st = SE_OK;
+    free(f->a);
+    f->a = NULL;
+    f->n = 0;
+    /* the SE_LBL_MAX_P strongest primaries make the model (at least the cut's size) */
+    if (np > SE_LBL_MAX_P) {
+        for (i = 0; i < np; i++) {
+            size_t larger = 0;
+            for (k = 0; k < np; k++)
+                larger += fabs(ap[k]) > fabs(ap[i]);
+            if (larger < SE_LBL_MAX_P && (cut == 0.0 || fabs(ap[i]) < cut))
+                cut = fabs(ap[i]);
         }
     }
+    for (i = 0; i < np; i++)
+        rdisc[i] = 0.0;
+    for (i = 0; i < np && nm < SE_LBL_MAX_P; i++) {
+        double r = ap[i] / t2;
+        if (fabs(ap[i]) < cut)
+            continue;
+        r = r > 1.0 ? 1.0 : (r < -1.0 ? -1.0 : r);
+        ifs[nm].one_way_s = 0.5 * tp[i];
+        ifs[nm].reflection = r;
+        nm++;
+        rdisc[i] = r;
+        t2 *= 1.0 - r * r;
+        if (t2 < 1e-6) /* nothing passes a full reflection */
+            break;
+    }
+    if (nm == 0)
+        return SE_OK;
+    line.interfaces = ifs;
+    line.n_interfaces = nm;
+    line.source_reflection = rs;
+    line.loss_np_per_s = 0.0;
+    /* a lossless line closed at both ends rings for ever: a higher floor keeps the paths few */
+    for (k = 0; k < 4; k++, fl *= 10.0) {
+        se_error e2;
+        if (!(fl < 1.0))
+            break;
+        st = se_sim_arrivals_floor(&line, horizon_s, quantum_s, fl, &f->a, &f->n, &e2);
+        if (st == SE_OK)
+            return SE_OK;
+        if (st != SE_ERR_NOMEM)
+            break; /* a line the lattice cannot take: no prediction */
+    }
+    (void)err;
+    f->a = NULL;
+    f->n = 0;
+    return SE_OK;
+}
+
+/* Predicted field at time t (after the direct arrival) from f shifted by -shift: sum of the
+ * paths within hw_s weighted exp(-(beta dt)^2 / 2); *spread gets the sum of their magnitudes.
+ * Paths within two cells of a primary's own time tp[] (its first bounce) are left out. */
+static double se_lbl_at(const se_lbl_field *f, double t, double shift, double hw_s, double beta,
+                        const double *tp, size_t np, double cell, double *spread)
+{
+    double sum = 0.0;
+    size_t lo = 0, hi = f->n, j, q;
+    *spread = 0.0;
+    while (lo < hi) { /* first path at or after t + shift - hw_s */
+        size_t mid = lo + (hi - lo) / 2;
+        if (f->a[mid].time_s < t + shift - hw_s)
+            lo = mid + 1;
+        else
+            hi = mid;
+    }
+    for (j = lo; j < f->n && f->a[j].time_s <= t + shift + hw_s; j++) {
+        double dt = t + shift - f->a[j].time_s, w = exp(-0.5 * beta * beta * dt * dt);
+        int own = 0;
+        for (q = 0; q < np && shift == 0.0; q++)
+            if (fabs(f->a[j].time_s - tp[q]) < 2.0 * cell)
+                own = 1;
+        if (own)
+            continue;
+        sum += f->a[j].amplitude * w;
+        *spread += fabs(f->a[j].amplitude) * w;
+    }
+    return sum;
+}
+
+/* The field of model f at t (own: shift 0, the model's primaries tp[np] left out) plus the
+ * previous taps' (shifts k I, weights (N - k) / N); *s_own, *s_prev get the summed magnitudes,
+ * *kbest the tap that contributes most. */
+static void se_lbl_fields(const se_lbl_field *own, const se_lbl_field *prev, double t,
+                          double hw_s, double beta, const double *tp, size_t np, double cell,
+                          size_t nshots, double interval, double *p_own, double *s_own,
+                          double *p_prev, double *s_prev, int *kbest)
+{
+    size_t k;
+    double best = 0.0;
+    *p_own = se_lbl_at(own, t, 0.0, hw_s, beta, tp, np, cell, s_own);
+    *p_prev = *s_prev = 0.0;
+    *kbest = 0;
+    for (k = 1; k < nshots && prev != NULL && prev->n > 0; k++) {
+        double s1, p1 = se_lbl_at(prev, t, (double)k * interval, hw_s, beta, tp, 0, cell, &s1);
+        double wk = (double)(nshots - k) / (double)nshots;
+        *p_prev += wk * p1;
+        *s_prev += wk * s1;
+        if (wk * s1 > best) {
+            best = wk * s1;
+            *kbest = (int)k;
+        }
+    }
+}
+
+static se_status se_label_multiples(se_event *ev, size_t n, const se_locate_stage *sg,
+                                    se_locate_result *res, double *spread_out, se_error *err)
+{
+    const double rs = sg->cfg->source_reflection, rate = sg->rate_hz;
+    const double hw_s = sg->mainlobe_half_width / rate, beta = sg->beta_crb * rate;
+    const double cell = 1.0 / (rate * SE_LBL_Q);
+    const double thr = sg->thr / fabs(sg->a0) / fabs(1.0 + rs);
+    const double horizon = (double)(sg->end - 1 - sg->k0) / rate + hw_s;
+    const size_t nshots = res->shots_used;
+    const double interval = res->shot_interval_s;
+    const int taps = nshots >= 2 && interval > 0.0;
+    double *tp = NULL, *ap, *rd;
+    size_t e, i, j, k, np = 0, full = SIZE_MAX;
+    se_lbl_field own = {NULL, 0}, prev = {NULL, 0};
+    int *taken = NULL;
+    se_status st = SE_OK;
+
+    if (n == 0)
+        return SE_OK;
+    tp = se_calloc(3 * n, sizeof *tp, "multiple labels", err);
+    taken = se_calloc(n, sizeof *taken, "multiple labels", err);
+    if (tp == NULL || taken == NULL) {
+        free(tp);
+        free(taken);
+        return SE_ERR_NOMEM;
+    }
+    ap = tp + n;
+    rd = ap + n;
+    if (taps) {
+        /* The previous taps' field needs the whole line, whose early part may hold their
+         * echoes: the line is first built strongest event first (a multiple is a product of
+         * coefficients, weaker than its factors), each event kept only when the model of the
+         * stronger ones (this tap and the previous ones) does not explain it. */
+        size_t c;
+        double full_t = INFINITY;
+        for (c = 0; c < n; c++) {
+            size_t best = SIZE_MAX, pos;
+            double po, so, pp, spp, tot;
+            int kb;
+            for (i = 0; i < n; i++) /* the c-th largest, ties by delay */
+                if (!taken[i] && (best == SIZE_MAX || fabs(ev[i].reflection) >
+                                                          fabs(ev[best].reflection)))
+                    best = i;
+            taken[best] = 1;
+            se_lbl_fields(&prev, &prev, ev[best].delay_s, hw_s, beta, tp, np, cell, nshots,
+                          interval, &po, &so, &pp, &spp, &kb);
+            tot = po + pp;
+            if ((so + spp > 0.0 && fabs(ev[best].reflection - tot) <=
+                                       3.0 * ev[best].reflection_uncertainty + 0.3 * so +
+                                           SE_LBL_PREV_F * spp) ||
+                ev[best].delay_s > full_t + hw_s)
+                continue;
+            for (pos = np; pos > 0 && tp[pos - 1] > ev[best].delay_s; pos--) {
+                tp[pos] = tp[pos - 1];
+                ap[pos] = ap[pos - 1];
+            }
+            tp[pos] = ev[best].delay_s;
+            ap[pos] = ev[best].reflection - tot;
+            np++;
+            st = se_lbl_model(tp, ap, np, rs, horizon + (double)(nshots - 1) * interval, cell,
+                              0.1 * thr, &prev, rd, err);
+            if (st != SE_OK)
+                goto done;
+            full_t = INFINITY;
+            for (i = 0; i < np; i++)
+                if (fabs(rd[i]) > 0.9) {
+                    full_t = tp[i];
+                    break;
+                }
+        }
+        np = 0;
+    }
+    /* this tap's multiples, in delay order, with the previous taps' field added */
+    for (e = 0; e < n; e++) {
+        double te = ev[e].delay_s, ae = ev[e].reflection, sa = ev[e].reflection_uncertainty;
+        double p_own, s_own, p_prev, s_prev, tot, sp;
+        int kprev;
+        se_lbl_fields(&own, taps ? &prev : NULL, te, hw_s, beta, tp, np, cell, nshots, interval,
+                      &p_own, &s_own, &p_prev, &s_prev, &kprev);
+        tot = p_own + p_prev;
+        sp = s_own + s_prev;
+        ev[e].multiple = 0;
+        ev[e].multiple_of[0] = ev[e].multiple_of[1] = -1;
+        ev[e].previous_shot = 0;
+        ev[e].predicted = tot;
+        spread_out[e] = sp;
+        if (sp > 0.0 && fabs(ae - tot) <= 3.0 * sa + 0.3 * s_own + SE_LBL_PREV_F * s_prev) {
+            ev[e].multiple = 1;
+            ev[e].previous_shot = s_prev > s_own ? kprev : 0;
+        } else if (full != SIZE_MAX && te > ev[full].delay_s + hw_s) {
+            ev[e].multiple = 1; /* past a full reflection nothing real is seen */
+            ev[e].multiple_of[0] = (int)full;
+        }
+        if (ev[e].multiple && ev[e].previous_shot == 0 && ev[e].multiple_of[0] < 0) {
+            /* the main contributing pair: a source-end pair sum t_i + t_j (any earlier events)
+             * or a peg-leg t_k + t_j - t_i (i < j primaries, k at or beyond j) */
+            double best = 0.0;
+            for (i = 0; i < e; i++)
+                for (j = i; j < e; j++) {
+                    double dt = te - ev[i].delay_s - ev[j].delay_s, sc;
+                    if (ev[i].previous_shot > 0 || ev[j].previous_shot > 0)
+                        continue;
+                    if (fabs(dt) < hw_s && rs != 0.0) {
+                        sc = fabs(rs * ev[i].reflection * ev[j].reflection) * (i == j ? 1.0 : 2.0) *
+                             exp(-0.5 * beta * beta * dt * dt);
+                        if (sc > best) {
+                            best = sc;
+                            ev[e].multiple_of[0] = (int)i;
+                            ev[e].multiple_of[1] = (int)j;
+                        }
+                    }
+                    if (j > i && !ev[i].multiple && !ev[j].multiple)
+                        for (k = j; k < e; k++) {
+                            if (ev[k].previous_shot > 0)
+                                continue;
+                            dt = te - (ev[k].delay_s + ev[j].delay_s - ev[i].delay_s);
+                            if (!(fabs(dt) < hw_s))
+                                continue;
+                            sc = fabs(ev[k].reflection * ev[i].reflection * ev[j].reflection) *
+                                 exp(-0.5 * beta * beta * dt * dt);
+                            if (sc > best) {
+                                best = sc;
+                                ev[e].multiple_of[0] = (int)i;
+                                ev[e].multiple_of[1] = (int)k;
+                            }
+                        }
+                }
+        }
+        if (ev[e].multiple)
+            continue;
+        /* a primary: its own amplitude is what the prediction does not explain */
+        tp[np] = te;
+        ap[np] = ae - tot;
+        np++;
+        st = se_lbl_model(tp, ap, np, rs, horizon, cell, 0.05 * thr, &own, rd, err);
+        if (st != SE_OK)
+            goto done;
+        if (full == SIZE_MAX && fabs(rd[np - 1]) > 0.9)
+            full = e;
+    }
+done:
+    free(own.a);
+    free(prev.a);
+    free(tp);
+    free(taken);
+    return st;
+}
+
+/* Ring-down and attenuation from the end's repeats, once the events are labelled (see
+ * se_locate_result): the primaries' own amplitudes are reflection - predicted. */
+static void se_ring_and_decay(const se_locate_stage *sg, se_locate_result *res,
+                              const double *spread)
+{
+    const se_locate_config *cfg = sg->cfg;
+    const double rs = cfg->source_reflection, rate = sg->rate_hz;
+    const double thr = sg->thr / fabs(sg->a0) / fabs(1.0 + rs), hw_s = sg->mainlobe_half_width / rate;
+    double ring = 0.0, t2 = 1.0, t2_end = 1.0;
+    size_t i, last = SIZE_MAX;
+    for (i = 0; i < res->n_events; i++) {
+        const se_event *ev = &res->events[i];
+        double a = ev->reflection - ev->predicted, rho = fabs(rs * a), r, ti;
+        if (ev->multiple)
+            continue;
+        ti = ev->delay_s;
+        if (fabs(a) > thr && rs != 0.0)
+            ti = rho >= 1.0 ? INFINITY : ev->delay_s * (1.0 + log(thr / fabs(a)) / log(rho));
+        ring = fmax(ring, ti);
+        r = a / t2;
+        r = r > 1.0 ? 1.0 : (r < -1.0 ? -1.0 : r);
+        t2_end = t2;
+        t2 *= 1.0 - r * r;
+        last = i;
+    }
+    res->ring_down_s = ring;
+    res->shots_overlap = res->shots_used >= 2 && res->shot_interval_s > 0.0 &&
+                         res->shot_interval_s < ring;
+    res->attenuation_uncertainty_db_per_m = NAN;
+    res->attenuation_repeats = 0;
+    if (isfinite(cfg->attenuation_db_per_m)) {
+        res->attenuation_db_per_m = cfg->attenuation_db_per_m;
+        res->attenuation_method = SE_ATTEN_GIVEN;
+        return;
+    }
+    res->attenuation_db_per_m = NAN;
+    res->attenuation_method = SE_ATTEN_NONE;
+    res->attenuation_estimated = 0;
+    if (last == SIZE_MAX || rs == 0.0)
+        return;
+    {
+        /* weighted straight line y_k = b + s k, y = log |A_k|, sigma_y = sigma_A / |A_k| */
+        const se_event *le = &res->events[last];
+        double a1 = le->reflection - le->predicted, sw = 0.0, swk = 0.0, swkk = 0.0, swy = 0.0,
+               swky = 0.0, det, s, b, vs, vb, cbs, loge, sle, g2, alpha, salpha;
+        size_t k, nk = 0, e = last;
+        for (k = 1; k < 64; k++) {
+            double tk = (double)k * le->delay_s, ak, sa, w, y, best = INFINITY;
+            size_t hit = SIZE_MAX, j;
+            if (k == 1) {
+                ak = a1;
+                sa = le->reflection_uncertainty;
+            } else {
+                double pure = pow(rs, (double)(k - 1)) * pow(a1, (double)k);
+                for (j = e; j < res->n_events; j++)
+                    if (fabs(res->events[j].delay_s - tk) < best) {
+                        best = fabs(res->events[j].delay_s - tk);
+                        hit = j;
+                    }
+                if (hit == SIZE_MAX ||
+                    best > fmax(3.0 * res->events[hit].delay_uncertainty_s, 0.25 * hw_s))
+                    break;
+                /* the pure repeat must make the prediction there: no other path near it (the
+                 * lattice merges paths of equal time, so the predicted sum tells) */
+                if (!res->events[hit].multiple || res->events[hit].previous_shot != 0 ||
+                    fabs(res->events[hit].predicted - pure) > 0.2 * fabs(pure) ||
+                    fabs(pure) < 0.8 * spread[hit])
+                    break;
+                ak = res->events[hit].reflection;
+                sa = res->events[hit].reflection_uncertainty;
+                e = hit;
+            }
+            if (!(fabs(ak) > 3.0 * sa))
+                break;
+            y = log(fabs(ak));
+            w = ak * ak / (sa * sa);
+            sw += w;
+            swk += w * (double)k;
+            swkk += w * (double)k * (double)k;
+            swy += w * y;
+            swky += w * (double)k * y;
+            nk++;
+        }
+        if (nk < 2)
+            return;
+        det = sw * swkk - swk * swk;
+        if (!(det > 0.0))
+            return;
+        s = (sw * swky - swk * swy) / det;
+        b = (swkk * swy - swk * swky) / det;
+        vs = sw / det;
+        vb = swkk / det;
+        cbs = -swk / det;
+        loge = s + b; /* log |r_end g^2 T^2| */
+        sle = sqrt(fmax(vs + vb + 2.0 * cbs, 0.0));
+        g2 = exp(loge) / t2_end; /* |r_end| = 1 */
+        if (!(le->distance_m > 0.0) || !(g2 > 0.0))
+            return;
+        alpha = -20.0 / log(10.0) * log(g2) / (2.0 * le->distance_m);
+        salpha = 20.0 / log(10.0) * sle / (2.0 * le->distance_m);
+        if (alpha < 0.0) { /* gain: only noise may make it so */
+            if (alpha < -3.0 * salpha)
+                return;
+            alpha = 0.0;
+        }
+        res->attenuation_db_per_m = alpha;
+        res->attenuation_uncertainty_db_per_m = salpha;
+        res->attenuation_method = SE_ATTEN_END_MULTIPLES;
+        res->attenuation_estimated = 1;
+        res->attenuation_repeats = nk;
+    }
+}
+
+int se_locate_overlap_warning(const se_locate_result *res, char *buf, size_t size)
+{
+    size_t i, nprev = 0;
+    if (buf == NULL || size == 0)
+        return 0;
+    buf[0] = '\0';
+    if (res == NULL || !res->shots_overlap)
+        return 0;
+    for (i = 0; i < res->n_events; i++)
+        nprev += res->events[i].multiple && res->events[i].previous_shot > 0;
+    if (isfinite(res->ring_down_s))
+        snprintf(buf, size,
+                 "the taps are %.1f s apart but the line rings for %.1f s: echoes of the previous "
+                 "tap overlap this one (%zu event%s labelled as such); tap at least %.0f s apart, "
+                 "or damp the line before each tap",
+                 res->shot_interval_s, res->ring_down_s, nprev, nprev == 1 ? "" : "s",
+                 ceil(res->ring_down_s));
+    else
+        snprintf(buf, size,
+                 "the taps are %.1f s apart but the line hardly loses energy (it rings on past any "
+                 "interval): echoes of the previous tap overlap this one (%zu event%s labelled as "
+                 "such); damp the line before each tap, or take single taps",
+                 res->shot_interval_s, nprev, nprev == 1 ? "" : "s");
+    return 1;
 }
 
 /* Runs of SE_CLIP_RUN or more equal samples at the trace's maximum or minimum: a sensor or
@@ -850,7 +1194,19 @@ se_status se_locate_events(const se_locate_stage *sg, const se_peak *peaks, size
         ev->reflection_at_discontinuity = ev->reflection; /* losses: se_locate */
     }
     res->n_events = npeaks;
-    se_label_multiples(res->events, npeaks, cfg->source_reflection, hw / rate_hz);
+    if (npeaks > 0) {
+        double *spread = se_calloc(npeaks, sizeof *spread, "multiple field", err);
+        if (spread == NULL)
+            return SE_ERR_NOMEM;
+        st = se_label_multiples(res->events, npeaks, sg, res, spread, err);
+        if (st == SE_OK)
+            se_ring_and_decay(sg, res, spread);
+        free(spread);
+        if (st != SE_OK)
+            return st;
+    } else {
+        se_ring_and_decay(sg, res, NULL);
+    }
     res->record_range_s = (double)(end - 1 - k0) / rate_hz;
     res->resolution_s = hw / rate_hz;
     res->break_event = -1;
@@ -886,7 +1242,6 @@ se_status se_locate_events(const se_locate_stage *sg, const se_peak *peaks, size
     res->electrical = se_quantity_is_electrical(cfg->quantity);
     res->quantity = cfg->quantity;
     res->source_reflection = cfg->source_reflection;
-    res->attenuation_db_per_m = NAN;
     if (res->shots_found == 0)
         res->shots_found = res->shots_used = 1;
 
@@ -902,8 +1257,8 @@ se_status se_locate_events(const se_locate_stage *sg, const se_peak *peaks, size
  * pilot only). On the response the shots must also keep a rhythm (longest interval at most 1.5
  * times the shortest). */
 static se_status se_locate_stack(double **x, size_t *n, const double *pulse, size_t m,
-                                 const se_locate_config *cfg, se_locate_result *res, size_t *pre,
-                                 se_error *err)
+                                 const se_locate_config *cfg, double rate_hz,
+                                 se_locate_result *res, size_t *pre, se_error *err)
 {
     se_stack_config sc;
     se_stack_result sr;
@@ -946,6 +1301,9 @@ static se_status se_locate_stack(double **x, size_t *n, const double *pulse, siz
         res->shots_used = sr.n_used;
         res->stack_gain_db = sr.gain_db;
         res->stack_expected_gain_db = sr.expected_gain_db;
+        /* the mean interval between the shots found (their echoes' overlap, se_locate_events) */
+        res->shot_interval_s = (sr.onsets[sr.n_found - 1] - sr.onsets[0]) /
+                               (double)(sr.n_found - 1) / rate_hz;
     } else if (cfg->pilot != NULL && sr.n_found >= 2 && sr.length > 0) {
         size_t k = sr.n_used > 0 ? sr.first_used : 0, b, len = sr.length, i;
         double o = floor(sr.onsets[k]);
@@ -1326,11 +1684,11 @@ static double se_estimate_source(const se_peak *peaks, size_t npeaks, double lag
  * left as seen). */
 static void se_apply_losses(const se_locate_config *cfg, se_locate_result *res)
 {
-    double alpha = cfg->attenuation_db_per_m, trans = 1.0; /* dB/m one way */
+    double alpha = res->attenuation_db_per_m, trans = 1.0; /* dB/m one way */
     size_t i;
-    res->attenuation_db_per_m = alpha;
-    res->attenuation_estimated = 0;
-    if (isnan(alpha) && cfg->expected != NULL && res->expected_found != NULL) {
+    /* given, or from the end's repeats (se_locate_events); a known reflector is preferred */
+    if (!isfinite(cfg->attenuation_db_per_m) && cfg->expected != NULL &&
+        res->expected_found != NULL) {
         size_t k, best = SIZE_MAX;
         for (k = 0; k < res->n_expected; k++) {
             const se_expected_event *xe = &cfg->expected[k];
@@ -1348,6 +1706,12 @@ static void se_apply_losses(const se_locate_config *cfg, se_locate_result *res)
                 alpha = -20.0 * log10(fmin(g, 1.0)) / (2.0 * cfg->expected[best].distance_m);
                 res->attenuation_db_per_m = alpha;
                 res->attenuation_estimated = 1;
+                res->attenuation_method = SE_ATTEN_KNOWN_REFLECTOR;
+                res->attenuation_repeats = 0;
+                /* the seen amplitude's uncertainty through g */
+                res->attenuation_uncertainty_db_per_m =
+                    20.0 / log(10.0) * fabs(ev->reflection_uncertainty / ev->reflection) /
+                    (2.0 * cfg->expected[best].distance_m);
             }
         }
     }
