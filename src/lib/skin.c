@@ -12,6 +12,7 @@
 #include "strandecho/skin.h"
 
 #define SE_SKIN_ALIAS_TERMS 4       /* explicit periodic images of the tail subtracted */
+#define SE_SKIN_ALIAS_STEP 64       /* samples between exact evaluations of that correction */
 #define SE_SKIN_TOL 1e-6            /* lag change that ends the iteration, samples */
 #define SE_SKIN_MAX_ITER 50
 #define SE_SKIN_GRID_MAX 48         /* grid points of a^2 fs for the K bracket */
@@ -51,6 +52,7 @@ typedef struct se_skin_obj {
 
 static size_t se_skin_pow2(size_t n);
 static double se_skin_h(double t_samples, double a, double fs);
+static double se_skin_alias(size_t k, size_t N, double c, double a, double fs);
 static se_status se_skin_fit_one(const se_skin_ctx *c, double kappa, double lag_start, double sign,
                                  double *lag, double *amp, double *a_out, size_t *iters,
                                  se_error *err);
@@ -79,6 +81,18 @@ static double se_skin_h(double t_samples, double a, double fs)
         return 0.0;
     t = t_samples / fs;
     return a / (2.0 * sqrt(SE_PI)) * pow(t, -1.5) * exp(-a * a / (4.0 * t)) / fs;
+}
+
+/* What the circular transform of length N adds at sample k for a unit-area pulse of centroid c:
+ * sum_{j >= 1} h(k + j N - c), four images and the rest as the integral erf(a / (2 sqrt T)) / N. */
+static double se_skin_alias(size_t k, size_t N, double c, double a, double fs)
+{
+    double al = 0.0, t;
+    int j;
+    for (j = 1; j <= SE_SKIN_ALIAS_TERMS; j++)
+        al += se_skin_h((double)k + (double)j * (double)N - c, a, fs);
+    t = ((double)k + (SE_SKIN_ALIAS_TERMS + 0.5) * (double)N - c) / fs;
+    return al + erf(a / (2.0 * sqrt(t))) / (double)N;
 }
 
 void se_skin_config_init(se_skin_config *cfg)
@@ -185,15 +199,20 @@ se_status se_skin_template(const double *pulse, size_t m, double rate_hz, double
     if (a_sqrt_s > 0.0 && fabs(s0) > 1e-12 * sabs) {
         /* the circular transform adds y(k + j N) for j >= 1: far in the tail y(t) = s0 h(t - c),
          * c the centroid; four images and the rest as an integral, erf(a / (2 sqrt T)) / N */
+        /* the correction varies on the scale of N >= 2 L: exact at every SE_SKIN_ALIAS_STEP-th
+         * sample and at the last, linear between (relative error ~ (step / N)^2) */
         const double c = s1 / s0 + shift;
+        double lo_v = se_skin_alias(0, N, c, a_sqrt_s, rate_hz), hi_v = lo_v;
+        size_t lo_k = 0, hi_k = 0;
         for (k = 0; k < L; k++) {
-            double al = 0.0, t;
-            int j;
-            for (j = 1; j <= SE_SKIN_ALIAS_TERMS; j++)
-                al += se_skin_h((double)k + (double)j * (double)N - c, a_sqrt_s, rate_hz);
-            t = ((double)k + (SE_SKIN_ALIAS_TERMS + 0.5) * (double)N - c) / rate_hz;
-            al += erf(a_sqrt_s / (2.0 * sqrt(t))) / (double)N;
-            y[k] -= s0 * al;
+            if (k > hi_k || (k == 0 && L > 1)) {
+                lo_k = hi_k;
+                lo_v = hi_v;
+                hi_k = lo_k + SE_SKIN_ALIAS_STEP < L - 1 ? lo_k + SE_SKIN_ALIAS_STEP : L - 1;
+                hi_v = se_skin_alias(hi_k, N, c, a_sqrt_s, rate_hz);
+            }
+            y[k] -= s0 * (hi_k > lo_k ? lo_v + (hi_v - lo_v) * (double)(k - lo_k) / (double)(hi_k - lo_k)
+                                      : lo_v);
         }
     }
     if (d2 != NULL)
@@ -253,7 +272,9 @@ static se_status se_skin_fit_one(const se_skin_ctx *c, double kappa, double lag_
         cr = se_calloc(len, sizeof *cr, "skin: local correlation", err);
         if (seg == NULL || xs == NULL || ts == NULL || cr == NULL || !(et > 0.0)) {
             st = cr == NULL ? SE_ERR_NOMEM
-                 : !(et > 0.0) ? se_fail(err, SE_ERR_DATA, "skin: the pulse has no energy")
+                 : !(et > 0.0) ? se_fail(err, SE_ERR_NOTFOUND,
+                                         "skin: the echo fitted from lag %.3f moved to lag %.3f, "
+                                         "outside the record of %zu samples", lag_start, tau, c->n)
                                : se_fail(err, SE_ERR_NOMEM, "skin: cannot allocate a %zu-point transform", N);
             goto next;
         }
@@ -399,6 +420,8 @@ static double se_skin_brent_f(double kappa, void *params)
     if (o->st != SE_OK)
         return HUGE_VAL;
     o->st = se_skin_objective(o, kappa < 0.0 ? 0.0 : kappa, &s);
+    if (o->st == SE_ERR_NOTFOUND) /* the fit left the record: not this K */
+        o->st = SE_OK;
     return o->st == SE_OK ? s : HUGE_VAL;
 }
 
@@ -539,10 +562,14 @@ se_status se_skin_correct(const double *x, size_t n, const double *pulse, size_t
             if (se_skin_template_length(m, c.fs, grid_k[ng] * dtmax * 1.5) == 0)
                 break;
             st = se_skin_objective(&o, grid_k[ng], &s);
+            if (st == SE_ERR_NOTFOUND) { /* the fit left the record: not this K */
+                st = SE_OK;
+                s = HUGE_VAL;
+            }
             if (st != SE_OK)
                 goto done;
             grid_s[ng] = s;
-            if (s < grid_s[b]) {
+            if (s < grid_s[b] || ng == 0) {
                 b = ng;
                 rises = 0;
             } else if (++rises >= 3) {
