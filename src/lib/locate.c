@@ -1012,6 +1012,7 @@ static void se_ring_and_decay(const se_locate_stage *sg, se_locate_result *res,
                 /* the pure repeat must make the prediction there: no other path near it (the
                  * lattice merges paths of equal time, so the predicted sum tells) */
                 if (!res->events[hit].multiple || res->events[hit].previous_shot != 0 ||
+                    res->events[hit].low_confidence ||
                     fabs(res->events[hit].predicted - pure) > 0.2 * fabs(pure) ||
                     fabs(pure) < 0.8 * spread[hit])
                     break;
@@ -1021,8 +1022,10 @@ static void se_ring_and_decay(const se_locate_stage *sg, se_locate_result *res,
             }
             if (!(fabs(ak) > 3.0 * sa))
                 break;
-            y = log(fabs(ak));
-            w = ak * ak / (sa * sa);
+            /* as seen, relative to the direct arrival: (1 + r_s) A_k, so that r_s is the fit's
+             * own and not the one the amplitudes were corrected with */
+            y = log(fabs(ak * (1.0 + rs)));
+            w = ak * ak / (sa * sa); /* 1 / sigma_y^2, sigma_y = sigma_A / |A_k| */
             sw += w;
             swk += w * (double)k;
             swkk += w * (double)k * (double)k;
@@ -1040,8 +1043,20 @@ static void se_ring_and_decay(const se_locate_stage *sg, se_locate_result *res,
         vs = sw / det;
         vb = swkk / det;
         cbs = -swk / det;
-        loge = s + b; /* log |r_end g^2 T^2| */
-        sle = sqrt(fmax(vs + vb + 2.0 * cbs, 0.0));
+        /* b = log |1 + r_s| - log |r_s|: r_s on the side of the coefficient used */
+        {
+            double eb = exp(b), rfit, dd, sa0;
+            if (rs > 0.0 ? !(eb > 1.0) : 0)
+                return;
+            rfit = rs > 0.0 ? 1.0 / (eb - 1.0) : 1.0 / (eb + 1.0);
+            if (!(rfit > 0.0 && rfit <= 1.0))
+                return;
+            loge = s - log(rfit); /* log |r_end g^2 T^2| */
+            dd = rs > 0.0 ? eb / (eb - 1.0) : eb / (eb + 1.0); /* d loge / d b */
+            /* the direct arrival's own noise moves every log A_k alike (through b) */
+            sa0 = sg->sigma / fabs(sg->a0);
+            sle = sqrt(fmax(vs + dd * dd * vb + 2.0 * dd * cbs + dd * dd * sa0 * sa0, 0.0));
+        }
         g2 = exp(loge) / t2_end; /* |r_end| = 1 */
         if (!(le->distance_m > 0.0) || !(g2 > 0.0))
             return;
