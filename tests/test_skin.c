@@ -14,7 +14,7 @@
 
 #define FS 1e9                         /* 1 GS/s */
 #define VF 0.66                        /* velocity factor */
-#define C0 299792458.0                 /* speed of light, m/s (SI definition) */
+#define C0 299792458.0                 /* speed of light, m/s, exact (BIPM SI brochure, 2019) */
 #define SKIN_K 4e-7                    /* s^0.5 per metre: strong loss at these lengths */
 #define NREFL 3
 
@@ -248,7 +248,7 @@ static void test_cable(double noise, unsigned long seed, int estimate)
     se_sim_arrival *arr = NULL;
     se_skin_config sc;
     se_skin_result sr;
-    se_skin_echo ech[NREFL + 1];
+    se_skin_echo ech[3 * NREFL + 1];
     size_t frames, narr = 0, i, j, kb = 0, ke = 0, m;
     double *x, *pl, truth[NREFL], plain[NREFL];
     se_error err;
@@ -294,6 +294,21 @@ static void test_cable(double noise, unsigned long seed, int estimate)
     }
     ech[NREFL].lag = sc.lag0; /* the direct arrival: left alone */
     ech[NREFL].amplitude = 1.0;
+    /* two more detections per echo on its late flank, as a matched filter with the lossless pulse
+     * splits a distorted echo (strandecho locate finds 5-8 per echo on this cable): they must be
+     * explained by the echo's loss-shaped template (threshold: 5 sigma of the plain matched filter,
+     * sigma = noise / sqrt(E_s); 1e-3 when noise-free) */
+    for (i = 0; i < NREFL; i++)
+        for (j = 0; j < 2; j++) {
+            ech[NREFL + 1 + 2 * i + j].lag = plain[i] + (j == 0 ? 4.0 : 9.0);
+            ech[NREFL + 1 + 2 * i + j].amplitude = 0.2 * ech[i].amplitude;
+        }
+    {
+        double es = 0.0;
+        for (i = 0; i < m; i++)
+            es += pl[kb + i] * pl[kb + i];
+        sc.threshold = noise > 0.0 ? 5.0 * noise / sqrt(es) : 1e-3;
+    }
     if (noise == 0.0 && !estimate) {
         /* the echo's rise is visibly longer than the pulse's (the farthest echo) */
         double rp = rise_10_90(x, frames, kb, kb + m);
@@ -301,7 +316,7 @@ static void test_cable(double noise, unsigned long seed, int estimate)
         printf("10-90 %% rise: pulse %.0f samples, echo at 330 m %.0f samples\n", rp, re);
         CHECK(re >= 1.5 * rp);
     }
-    if (!CHECK(se_skin_correct(x, frames, pl + kb, m, &sc, ech, NREFL + 1, &sr, &err) == SE_OK))
+    if (!CHECK(se_skin_correct(x, frames, pl + kb, m, &sc, ech, 3 * NREFL + 1, &sr, &err) == SE_OK))
         printf("  %s\n", err.message);
     printf("noise %g, K %s: K = %.6g +- %.3g s^0.5/m (true %g), %zu echoes fitted\n", noise,
            estimate ? "estimated" : "given", sr.k_s05_per_m, sr.k_sd, SKIN_K, sr.fit_echoes);
@@ -313,6 +328,9 @@ static void test_cable(double noise, unsigned long seed, int estimate)
             CHECK(fabs(sr.k_s05_per_m - SKIN_K) <= 3.0 * sr.k_sd);
     }
     CHECK(ech[NREFL].lag == sc.lag0 && ech[NREFL].corrected == 0 && ech[NREFL].amplitude == 1.0);
+    CHECK(ech[NREFL].explained == 0);
+    for (i = NREFL + 1; i < 3 * NREFL + 1; i++)
+        CHECK(ech[i].explained == 1 && ech[i].corrected == 0);
     for (i = 0; i < NREFL; i++) {
         const double bias = plain[i] - truth[i], e = ech[i].lag - truth[i];
         /* the lattice's amplitude: the coefficient times the two-way transmissions 1 - r^2 of the
@@ -326,7 +344,7 @@ static void test_cable(double noise, unsigned long seed, int estimate)
                ech[i].a_sqrt_s * ech[i].a_sqrt_s * FS, ech[i].iterations);
         /* the plain matched filter IS late: by more than one sample at these losses */
         CHECK(bias > 1.0);
-        CHECK(ech[i].corrected == 1);
+        CHECK(ech[i].corrected == 1 && ech[i].explained == 0);
         if (noise == 0.0) {
             /* noise-free: within 1 % of the bias and 0.02 sample */
             CHECK(fabs(e) < 0.01 * bias && fabs(e) < 0.02);

@@ -78,7 +78,11 @@ typedef struct se_skin_echo {
                                residual in this echo's window) */
     size_t iterations;      /* out: template rebuilds until the lag moved < 1e-6 sample */
     int corrected;          /* out: 1 when corrected; 0 for echoes at or before the direct arrival
-                               (a = 0: nothing to do) */
+                               (a = 0: nothing to do) and for explained ones */
+    int explained;          /* out: 1 when the detection is explained by the loss-shaped tail of
+                               a stronger echo (with cfg.threshold > 0: its plain matched filter on
+                               x minus the stronger echoes' fitted templates is below threshold):
+                               not a reflection of its own, drop it; lag and amplitude unchanged */
 } se_skin_echo;
 
 typedef struct se_skin_config {
@@ -89,10 +93,16 @@ typedef struct se_skin_config {
                                NaN = estimate from the data (se_skin_result) */
     double noise_rms;       /* noise of x per sample (x units), > 0; 0 or NaN = from the fit
                                residuals */
-    size_t max_fit_echoes;  /* estimation: the strongest echoes fitted jointly (0 = 4) */
+    size_t max_fit_echoes;  /* estimation: the strongest echoes fitted jointly (0 = 4), each more
+                               than 16 m + 256 samples from the others */
+    double threshold;       /* detection threshold of the plain matched filter, r units (> 0):
+                               detections that the stronger echoes' loss-shaped templates explain
+                               are marked explained (a matched filter with the lossless pulse
+                               splits a distorted echo into several peaks); 0 = keep every echo */
 } se_skin_config;
 
-/* Defaults: everything 0 but k_s05_per_m = NaN (estimate) and noise_rms = NaN. */
+/* Defaults: everything 0 (threshold 0: no pruning) but k_s05_per_m = NaN (estimate) and
+ * noise_rms = NaN. */
 void se_skin_config_init(se_skin_config *cfg);
 
 typedef struct se_skin_result {
@@ -105,7 +115,9 @@ typedef struct se_skin_result {
     double residual;        /* S_min: sum of squared residuals of the fit windows (x units^2) */
 } se_skin_result;
 
-/* Correct located echoes for skin-effect distortion. For each echo after the direct arrival:
+/* Correct located echoes for skin-effect distortion. With cfg.threshold > 0 the detections that
+ * stronger echoes' loss-shaped templates explain are marked first (se_skin_echo.explained). For each
+ * remaining echo after the direct arrival:
  * a = kappa (lag - lag0) / rate (kappa = K speed), the template for a (se_skin_template) is
  * correlated with x around the echo (normalised by its energy), the peak refined band-limited
  * (se_refine_peak), the lag updated and a rebuilt, until the lag moves less than 1e-6 sample (at

@@ -63,6 +63,8 @@ static double se_skin_window_ss(const double *xw, const se_skin_fit *f);
 static se_status se_skin_objective(se_skin_obj *o, double kappa, double *s);
 static double se_skin_brent_f(double kappa, void *params);
 static int se_skin_cmp_amp(const void *a, const void *b);
+static void se_skin_windows(se_skin_fit *f, size_t nf, double lag0, size_t m, size_t n);
+static double se_skin_plain_r(const double *xw, size_t n, const double *p, size_t m, double lag);
 
 static size_t se_skin_pow2(size_t n)
 {
@@ -432,6 +434,55 @@ static int se_skin_cmp_amp(const void *a, const void *b)
     return (ax < ay) - (ax > ay);
 }
 
+/* Residual windows of the echoes f among themselves: from half-way to the previous one (or the
+ * end of the direct pulse) to half-way to the next (or the record end), at most 16 m + 256
+ * samples before the echo and m + that after it. */
+static void se_skin_windows(se_skin_fit *f, size_t nf, double lag0, size_t m, size_t n)
+{
+    const double cap = (double)(16 * m + 256);
+    size_t i, j;
+    for (i = 0; i < nf; i++) {
+        double lo = lag0 + (double)m, hi = (double)n, lg = f[i].lag_in;
+        for (j = 0; j < nf; j++) {
+            double o = f[j].lag_in;
+            if (j == i)
+                continue;
+            if (o < lg && 0.5 * (o + lg) > lo)
+                lo = 0.5 * (o + lg);
+            if (o > lg && 0.5 * (o + lg) < hi)
+                hi = 0.5 * (o + lg);
+        }
+        lo = fmax(lo, lg - cap);
+        hi = fmin(hi, lg + (double)m + cap);
+        if (lo < 0.0)
+            lo = 0.0;
+        if (hi <= lo)
+            hi = fmin((double)n, lo + 1.0);
+        f[i].lo = (size_t)ceil(lo);
+        f[i].hi = (size_t)ceil(hi);
+    }
+}
+
+/* Plain matched filter of xw at the integer lags around lag: the largest |sum xw[k+j] p[j] / E_p|
+ * over round(lag) - 1 .. round(lag) + 1, signed. */
+static double se_skin_plain_r(const double *xw, size_t n, const double *p, size_t m, double lag)
+{
+    double ep = 0.0, best = 0.0;
+    long k0 = (long)floor(lag + 0.5), k;
+    size_t j;
+    for (j = 0; j < m; j++)
+        ep += p[j] * p[j];
+    for (k = k0 - 1; k <= k0 + 1; k++) {
+        double acc = 0.0;
+        for (j = 0; j < m; j++)
+            if (k + (long)j >= 0 && (size_t)(k + (long)j) < n)
+                acc += xw[k + (long)j] * p[j];
+        if (fabs(acc) > fabs(best))
+            best = acc;
+    }
+    return ep > 0.0 ? best / ep : 0.0;
+}
+
 se_status se_skin_correct(const double *x, size_t n, const double *pulse, size_t m,
                           const se_skin_config *cfg, se_skin_echo *echoes, size_t n_echoes,
                           se_skin_result *res, se_error *err)
@@ -490,6 +541,10 @@ se_status se_skin_correct(const double *x, size_t n, const double *pulse, size_t
         goto done;
     }
     cap = 16 * m + 256;
+    if (!(cfg->threshold >= 0.0) || !isfinite(cfg->threshold)) {
+        st = se_fail(err, SE_ERR_ARG, "skin: threshold %g is not finite >= 0", cfg->threshold);
+        goto done;
+    }
     for (i = 0; i < n_echoes; i++) {
         out[i] = echoes[i];
         out[i].lag_plain = echoes[i].lag;
@@ -498,29 +553,13 @@ se_status se_skin_correct(const double *x, size_t n, const double *pulse, size_t
         out[i].noise_rms = NAN;
         out[i].iterations = 0;
         out[i].corrected = 0;
+        out[i].explained = 0;
         if (echoes[i].lag > cfg->lag0 + 0.5) {
-            double lo = cfg->lag0 + (double)m, hi = (double)n, lg = echoes[i].lag;
-            for (j = 0; j < n_echoes; j++) {
-                double o = echoes[j].lag;
-                if (j == i)
-                    continue;
-                if (o < lg && o > cfg->lag0 + 0.5 && 0.5 * (o + lg) > lo)
-                    lo = 0.5 * (o + lg);
-                if (o > lg && 0.5 * (o + lg) < hi)
-                    hi = 0.5 * (o + lg);
-            }
-            lo = fmax(lo, lg - (double)cap);
-            hi = fmin(hi, lg + (double)(m + cap));
-            if (lo < 0.0)
-                lo = 0.0;
-            if (hi <= lo)
-                hi = fmin((double)n, lo + 1.0);
+            const double lg = echoes[i].lag;
             all[nall].idx = i;
             all[nall].lag_in = lg;
             all[nall].sign = echoes[i].amplitude < 0.0 ? -1.0 : 1.0;
             all[nall].amp = echoes[i].amplitude;
-            all[nall].lo = (size_t)ceil(lo);
-            all[nall].hi = (size_t)ceil(hi);
             nall++;
         }
     }
@@ -538,7 +577,17 @@ se_status se_skin_correct(const double *x, size_t n, const double *pulse, size_t
         }
         memcpy(fits, all, nall * sizeof *fits);
         qsort(fits, nall, sizeof *fits, se_skin_cmp_amp);
-        nfit = nall < want ? nall : want;
+        /* the strongest, each more than the window cap from those already taken (pieces of one
+         * distorted echo that detection split are not fitted as echoes of their own) */
+        for (i = 0; i < nall && nfit < want; i++) {
+            int near = 0;
+            for (j = 0; j < nfit; j++)
+                if (fabs(fits[j].lag_in - fits[i].lag_in) <= (double)cap)
+                    near = 1;
+            if (!near)
+                fits[nfit++] = fits[i];
+        }
+        se_skin_windows(fits, nfit, cfg->lag0, m, n);
         for (i = 0; i < nfit; i++) {
             double dt = (fits[i].lag_in - cfg->lag0) / c.fs;
             if (dt > dtmax)
@@ -627,6 +676,48 @@ se_status se_skin_correct(const double *x, size_t n, const double *pulse, size_t
             }
         }
     }
+
+    /* detections explained by the loss-shaped tails of stronger echoes: strongest first, each kept
+     * echo fitted and taken out of the residual; one whose plain matched filter on the residual is
+     * below the threshold is not an echo of its own */
+    if (kappa > 0.0 && nall > 0 && cfg->threshold > 0.0) {
+        size_t nk = 0;
+        memcpy(alt, all, nall * sizeof *alt);
+        qsort(alt, nall, sizeof *alt, se_skin_cmp_amp);
+        memcpy(xw, x, n * sizeof *xw);
+        for (i = 0; i < nall; i++) {
+            se_skin_fit *f = &alt[i];
+            double base, *T = NULL;
+            size_t L = 0, k;
+            if (fabs(se_skin_plain_r(xw, n, pulse, m, f->lag_in)) < cfg->threshold) {
+                out[f->idx].explained = 1;
+                continue;
+            }
+            st = se_skin_fit_one(&c, kappa, f->lag_in, f->sign, &f->lag, &f->amp, &f->a, &f->iters, err);
+            if (st == SE_ERR_NOTFOUND) { /* fitted out of the record: keep it uncorrected */
+                st = SE_OK;
+                out[f->idx].explained = 0;
+                continue;
+            }
+            base = floor(f->lag);
+            if (st == SE_OK)
+                st = se_skin_template(pulse, m, c.fs, f->a, f->lag - base, &T, &L, NULL, err);
+            if (st != SE_OK)
+                goto done;
+            for (k = 0; k < L; k++)
+                if ((long)base + (long)k >= 0 && (size_t)((long)base + (long)k) < n)
+                    xw[(long)base + (long)k] -= f->amp * T[k];
+            free(T);
+            nk++;
+        }
+        /* keep the rest in lag order */
+        for (i = 0, j = 0; i < nall; i++)
+            if (!out[all[i].idx].explained)
+                all[j++] = all[i];
+        nall = j;
+        (void)nk;
+    }
+    se_skin_windows(all, nall, cfg->lag0, m, n);
 
     /* correct every echo after the direct arrival with kappa, all fitted together */
     if (kappa > 0.0 && nall > 0) {
