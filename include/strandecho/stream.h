@@ -1,6 +1,7 @@
 /* strandecho: streaming locate. The locator of locate.h run on a recording read from libsndfile in
  * blocks, so memory does not grow with the record: the matched filter is computed chunk by chunk
- * (overlap-save, se_xcorr_run_part, up to two threads, the next chunk read meanwhile), the noise
+ * (overlap-save, se_xcorr_run_part, up to two threads, the next chunk read meanwhile, the
+ * correlation running ahead of the scan by up to 8 chunks), the noise
  * is estimated on the same strided sample of lags se_locate uses (se_noise_mad), lags are scanned
  * in blocks against a pre-threshold (0.8 of the threshold the noise of the first 2^15 lags after
  * the direct arrival implies) and only the extent of each cluster of candidates is kept; at the
@@ -9,7 +10,8 @@
  * classified by the locator's own event stage.
  *
  * Non-stationary noise (cfg->noise_tracking, detect.h se_noise_profile): the pass also measures
- * se_locate's noise blocks (the lags of one block at a time, then its two MAD sigmas). When they
+ * se_locate's noise blocks, keeping only the lags se_noise_block_sigma samples in each
+ * (se_noise_block_taps: 3072 a block). When they
  * vary, one more pass scans each lag against 0.8 of its own threshold (a single pre-threshold at
  * the quiet level would gather a loud part into one cluster), and CLEAN on each window uses the
  * profile seen from the window (its start moved back by less than block/32 lags so the profile's
@@ -19,12 +21,12 @@
  * both plan with FFTW_ESTIMATE (the default here), within ~1e-12 sample otherwise; see
  * se_locate_stream for the two cases where the answer can differ.
  *
- * Memory: 8 (3 T + 2) chunk doubles (two input buffers and the output, T threads), 2 MiB around
- * the direct arrival, 16 bytes per sampled noise lag (2 MiB at the default 2^16; twice during the
- * final median), 24 bytes per candidate cluster, and one recomputed window (about 5 pulse lengths
- * plus a block) at a time: about 22 MiB of peak resident memory at M = 4096 for 2^24 and for
- * 2^30 samples alike (docs/performance.md). With noise tracking, 8 bytes per lag of one noise
- * block (under 2 max(4096, 256 M) lags: up to 16 MiB more at M = 4096) and 16 per block. */
+ * Memory: 8 (2 T + 2) chunk doubles (two input buffers, T threads), 8 T chunk doubles of output
+ * (the ring of 8 chunks the correlation fills ahead of the scan), 2 MiB around the direct
+ * arrival, 16 bytes per sampled noise lag (2 MiB at the default 2^16; twice during the final
+ * median), 24 bytes per candidate cluster, the reference's autocorrelation tables (made during
+ * the pass), and two recomputed windows (about 5 pulse lengths plus a block each) at a time; peak
+ * resident memory does not grow with the record (figures in docs/performance.md). */
 #ifndef SE_STREAM_H
 #define SE_STREAM_H
 
@@ -48,7 +50,7 @@ typedef struct se_stream_config {
                                  pulse_window samples of that channel and used as the reference
                                  (SE_REF_CHANNEL, offset where it starts), replacing cfg's */
     size_t pulse_window;      /* samples of the pulse channel searched (0 = 2^20) */
-    size_t block;             /* lags correlated per chunk and thread (0 = 2^17), rounded down to a
+    size_t block;             /* lags correlated per chunk and thread (0 = 2^16), rounded down to a
                                  multiple of the engine's step (at least one step) */
     unsigned threads;         /* 1 or 2 worker threads for the correlation (0 = 2); with 2, a third
                                  thread reads the next chunk meanwhile. Results do not depend on it */

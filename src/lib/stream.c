@@ -23,7 +23,9 @@
 
 #define SE_STREAM_NOISE_FLOOR 1e-4            /* as se_locate: 80 dB below the direct arrival */
 #define SE_STREAM_CLIP_RUN 5                  /* as se_locate */
-#define SE_STREAM_DEFAULT_BLOCK ((size_t)1 << 17)
+/* 2^16 lags a thread: an input chunk (2 2^16 + m doubles) stays in a core's L2 cache between
+ * being read and being correlated; 2^17 was slower, 2^15 too (thread start-up per chunk) */
+#define SE_STREAM_DEFAULT_BLOCK ((size_t)1 << 16)
 #define SE_STREAM_DEFAULT_NOISE ((size_t)1 << 16)
 #define SE_STREAM_PULSE_WINDOW ((size_t)1 << 20)
 #define SE_STREAM_PROVISIONAL ((size_t)1 << 15) /* lags for the provisional noise */
@@ -33,7 +35,7 @@
  * rarely passes it (clusters stay few), low enough that a provisional noise over the final one by
  * up to a quarter still needs no second pass. */
 #define SE_STREAM_PRE_FRACTION 0.8
-/* Chunks of r correlated ahead of the scan (threads lc lags each, 2 MiB at the default block):
+/* Chunks of r correlated ahead of the scan (threads lc lags each, 1 MiB at the default block):
  * enough to keep both cores busy while the reference's autocorrelation is made. */
 #define SE_STREAM_RING 8
 
@@ -152,6 +154,7 @@ static se_status se_pass(se_sl *s, se_src *src, const se_xcorr *xc, se_xcorr_wor
 static void se_sl_reset(se_sl *s);
 static se_status se_sl_direct(se_sl *s, se_error *err);
 static se_status se_prep_run(void *ctx, se_error *err);
+static void *se_wjob_fetch(void *arg);
 static int se_peak_by_size(const void *a, const void *b);
 static int se_peak_by_lag(const void *a, const void *b);
 static se_status se_sl_noise_blocks(se_sl *s, size_t i0, const double *v, size_t lo, size_t hi,
@@ -1149,6 +1152,73 @@ done:
     return st;
 }
 
+/* One window to CLEAN: r[a, e) recomputed from the file (data), the lags [s0, s1) searched, the
+ * noise profile seen from it. */
+typedef struct se_wjob {
+    const se_sl *s;
+    se_src *src;
+    const se_xcorr *xc;
+    se_xcorr_work *w;
+    size_t a, e, s0, s1;
+    se_noise_profile prof;
+    double *data;
+    se_status st;
+    se_error err;
+} se_wjob;
+
+static void *se_wjob_fetch(void *arg)
+{
+    se_wjob *j = arg;
+    se_error_clear(&j->err);
+    j->st = se_window_data(j->s, j->src, j->xc, j->w, j->a, j->e, &j->data, &j->err);
+    return NULL;
+}
+
+/* The first cluster from *i on that holds something to CLEAN, as job j (*have = 1; *i moves past
+ * it), or *have = 0. A cluster whose largest |r| is below the threshold holds no detection
+ * (every other lag of its range is below pre <= thr, and the direct arrival's sidelobes end
+ * before start), so only the others get their window r[cand_first - left, cand_last + left]
+ * recomputed. ds: the end of the dead zone. */
+static se_status se_wjob_next(const se_sl *s, size_t *i, int varies, double thr, size_t ds,
+                              const se_noise_profile *prof, se_wjob *j, int *have, se_error *err)
+{
+    *have = 0;
+    for (; *i < s->nwins; (*i)++) {
+        const se_window *wd = &s->wins[*i];
+        size_t a = wd->cand_first > s->left ? wd->cand_first - s->left : 0;
+        size_t e = s->n - wd->cand_last > s->left ? wd->cand_last + s->left + 1 : s->n;
+        size_t s0 = wd->cand_first > s->reach ? wd->cand_first - s->reach : 0;
+        size_t s1 = wd->cand_last + s->reach + 1;
+        /* with the profile, cmax is relative to each lag's own threshold */
+        if (!(wd->cmax >= (varies ? 1.0 : thr)))
+            continue;
+        if (s0 < ds)
+            s0 = ds;
+        if (s1 > s->end)
+            s1 = s->end;
+        if (s1 > e)
+            s1 = e;
+        if (s0 >= s1)
+            continue;
+        se_noise_profile_free(&j->prof);
+        if (varies) {
+            se_status st = se_window_profile(prof, a, e, &a, &j->prof, err);
+            if (st != SE_OK)
+                return st;
+        }
+        j->a = a;
+        j->e = e;
+        j->s0 = s0;
+        j->s1 = s1;
+        j->data = NULL;
+        j->st = SE_OK;
+        (*i)++;
+        *have = 1;
+        return SE_OK;
+    }
+    return SE_OK;
+}
+
 /* Where the direct arrival's r is kept: D = r[d0, d1) around the argmax range [lo, hi). */
 static se_status se_sl_direct(se_sl *s, se_error *err)
 {
@@ -1205,25 +1275,26 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
     se_acf *acf = NULL;
     se_distmap *own_map = NULL;
     const se_distmap *map;
-    double *ref = NULL, *pbuf_pulse = NULL, *wdata = NULL;
+    double *ref = NULL, *pbuf_pulse = NULL;
     se_peak *all = NULL;
     size_t nall = 0, m, n, lc, step, i, dead = 0, maxp;
     unsigned threads, nch;
     double lag0 = 0.0, a0 = 0.0, sigma, beta, beta_crb, kthr = 0.0, thr = 0.0;
     se_xcorr_config xcfg;
-    se_noise_profile prof, wprof;
+    se_noise_profile prof;
     se_src src;
     se_prep prep;
-    int varies = 0;
+    se_wjob wj[2];
+    int varies = 0, have = 0, wcur = 0;
 
     memset(&src, 0, sizeof src);
     memset(&prep, 0, sizeof prep);
+    memset(wj, 0, sizeof wj);
     if (res == NULL)
         return se_fail(err, SE_ERR_ARG, "stream locate: no result record");
     memset(res, 0, sizeof *res);
     memset(&s, 0, sizeof s);
     memset(&prof, 0, sizeof prof);
-    memset(&wprof, 0, sizeof wprof);
     if (info == NULL)
         info = &dummy;
     memset(info, 0, sizeof *info);
@@ -1558,71 +1629,81 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
      * its range is below pre <= thr, and the direct arrival's sidelobes end before start), so only
      * the others get their window r[cand_first - left, cand_last + left] recomputed. */
     maxp = cfg.max_events ? cfg.max_events : 64;
-    for (i = 0; i < s.nwins; i++) {
-        se_window *wd = &s.wins[i];
+    for (i = 0; i < 2; i++) {
+        wj[i].s = &s;
+        wj[i].src = &src;
+        wj[i].xc = xc;
+        wj[i].w = w[0]; /* one window is recomputed at a time */
+    }
+    /* the next window's r is recomputed (in a thread of its own with two threads) while this one
+     * is CLEANed */
+    i = 0;
+    st = se_wjob_next(&s, &i, varies, thr, s.k0 + dead, &prof, &wj[0], &have, err);
+    if (st == SE_OK && have) {
+        se_wjob_fetch(&wj[0]);
+        if ((st = wj[0].st) != SE_OK)
+            se_fail(err, st, "%s", wj[0].err.message);
+    }
+    while (st == SE_OK && have) {
+        se_wjob *cj = &wj[wcur], *nj = &wj[1 - wcur];
         se_detect_config dc;
         se_peak direct, *pk = NULL;
-        size_t np = 0, j, ds = s.k0 + dead, len;
-        size_t a = wd->cand_first > s.left ? wd->cand_first - s.left : 0;
-        size_t e = n - wd->cand_last > s.left ? wd->cand_last + s.left + 1 : n;
-        size_t s0 = wd->cand_first > s.reach ? wd->cand_first - s.reach : 0;
-        size_t s1 = wd->cand_last + s.reach + 1;
-        /* with the profile, cmax is relative to each lag's own threshold */
-        if (!(wd->cmax >= (varies ? 1.0 : thr)))
-            continue;
-        if (s0 < ds)
-            s0 = ds;
-        if (s1 > s.end)
-            s1 = s.end;
-        if (s1 > e)
-            s1 = e;
-        if (s0 >= s1)
-            continue;
-        se_noise_profile_free(&wprof);
-        if (varies && (st = se_window_profile(&prof, a, e, &a, &wprof, err)) != SE_OK)
-            goto done;
-        len = e - a;
-        free(wdata);
-        st = se_window_data(&s, &src, xc, w[0], a, e, &wdata, err);
-        if (st != SE_OK)
-            goto done;
+        size_t np = 0, j, a = cj->a, len = cj->e - cj->a;
+        int nhave = 0, spawned = 0;
+        pthread_t ftid;
+        if ((st = se_wjob_next(&s, &i, varies, thr, s.k0 + dead, &prof, nj, &nhave, err)) != SE_OK)
+            break;
+        if (nhave && threads > 1)
+            spawned = pthread_create(&ftid, NULL, se_wjob_fetch, nj) == 0;
         info->windows++;
         info->window_samples += len;
         direct.lag = lag0 - (double)a;
         direct.amplitude = a0;
         direct.index = 0;
         memset(&dc, 0, sizeof dc);
-        dc.start = s0 - a;
-        dc.end = s1 - a;
+        dc.start = cj->s0 - a;
+        dc.end = cj->s1 - a;
         dc.threshold = thr;
         dc.max_peaks = maxp;
         dc.acf = acf;
         dc.known = &direct;
         dc.n_known = 1;
         if (varies) {
-            dc.profile = &wprof;
+            dc.profile = &cj->prof;
             dc.profile_sigmas = kthr;
         }
-        st = se_detect(wdata, len, &dc, &pk, &np, err);
-        if (st != SE_OK)
-            goto done;
-        if (np > 0) {
+        st = se_detect(cj->data, len, &dc, &pk, &np, err);
+        if (nhave) {
+            if (spawned)
+                pthread_join(ftid, NULL);
+            else
+                se_wjob_fetch(nj);
+        }
+        if (st == SE_OK && np > 0) {
             se_peak *na = realloc(all, (nall + np) * sizeof *na);
             if (na == NULL) {
-                free(pk);
                 st = se_fail(err, SE_ERR_NOMEM, "stream: cannot grow the peak list");
-                goto done;
+            } else {
+                all = na;
+                for (j = 0; j < np; j++) {
+                    all[nall + j] = pk[j];
+                    all[nall + j].lag += (double)a;
+                    all[nall + j].index += a;
+                }
+                nall += np;
             }
-            all = na;
-            for (j = 0; j < np; j++) {
-                all[nall + j] = pk[j];
-                all[nall + j].lag += (double)a;
-                all[nall + j].index += a;
-            }
-            nall += np;
         }
         free(pk);
+        if (st == SE_OK && nhave && (st = nj->st) != SE_OK)
+            se_fail(err, st, "%s", nj->err.message);
+        free(cj->data);
+        cj->data = NULL;
+        se_noise_profile_free(&cj->prof);
+        wcur = 1 - wcur;
+        have = nhave;
     }
+    if (st != SE_OK)
+        goto done;
     if (nall > maxp) {
         /* keep the largest maxp, back in lag order */
         qsort(all, nall, sizeof *all, se_peak_by_size);
@@ -1652,11 +1733,13 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
 
 done:
     se_noise_profile_free(&prof);
-    se_noise_profile_free(&wprof);
+    for (i = 0; i < 2; i++) {
+        free(wj[i].data);
+        se_noise_profile_free(&wj[i].prof);
+    }
     se_sl_reset(&s);
     free(s.wins);
     free(s.pbuf);
-    free(wdata);
     free(s.dbuf);
     free(s.pm_i);
     free(s.pm_v);
