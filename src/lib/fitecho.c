@@ -67,8 +67,9 @@ static void se_state_free(se_fit_state *s);
 static int se_fit_search(const se_fit_work *wk, se_fit_state *cur, se_error *err);
 static double se_fit_residual_peak(const se_fit_work *wk, const se_fit_state *cur, long *lag);
 static int se_fit_best_pair(const se_fit_work *wk, double lo_lag, double hi_lag, se_echo pair[2]);
-static int se_fit_start(const se_fit_work *wk, se_echo *init, size_t k, se_fit_state *cur,
-                        se_error *err);
+static int se_fit_start(const se_fit_work *wk, se_echo *init, size_t k, double gate,
+                        se_fit_state *cur, se_error *err);
+static int se_fit_same(const se_echo *a, size_t ka, const se_echo *b, size_t kb);
 
 se_echo_model *se_echo_model_create(const double *pulse, size_t m, se_error *err)
 {
@@ -500,17 +501,36 @@ static int se_fit_best_pair(const se_fit_work *wk, double lo_lag, double hi_lag,
     return found;
 }
 
-/* Fit from init [size: k] (sorted here) and run the stepwise search. cur->ok = 0 when the first
- * fit fails. Returns 0, or -1 on allocation failure. */
-static int se_fit_start(const se_fit_work *wk, se_echo *init, size_t k, se_fit_state *cur,
-                        se_error *err)
+/* Fit from init [size: k] (sorted here) and run the stepwise search, unless the first fit's BIC
+ * is above gate (then cur->ok = 0: not worth searching from). cur->ok = 0 also when the first fit
+ * fails. Returns 0, or -1 on allocation failure. */
+static int se_fit_start(const se_fit_work *wk, se_echo *init, size_t k, double gate,
+                        se_fit_state *cur, se_error *err)
 {
     qsort(init, k, sizeof *init, se_echo_cmp);
     if (se_fit_run(wk->pr, init, k, wk->sigma, wk->min_sep, cur, err) != 0)
         return -1;
     if (!cur->ok)
         return 0;
+    if (cur->bic > gate) {
+        se_state_free(cur);
+        cur->ok = 0;
+        return 0;
+    }
     return se_fit_search(wk, cur, err);
+}
+
+/* 1 when the echoes a [size: ka] and b [size: kb] (both sorted by lag) are the same start: as
+ * many, each pair of the same sign and within a sample (the fit from one converges to the other's) */
+static int se_fit_same(const se_echo *a, size_t ka, const se_echo *b, size_t kb)
+{
+    size_t i;
+    if (ka != kb)
+        return 0;
+    for (i = 0; i < ka; i++)
+        if (!(fabs(a[i].lag - b[i].lag) <= 1.0) || a[i].amplitude * b[i].amplitude <= 0.0)
+            return 0;
+    return 1;
 }
 
 /* From the fitted cur: add an echo where the residual correlates best with the pulse, or remove
@@ -628,7 +648,7 @@ se_status se_fitecho(const se_echo_model *mdl, const double *x, size_t n,
     se_fit_problem pr;
     se_fit_work wk;
     se_fit_state cur, cand;
-    se_echo *trial = NULL, pair[2];
+    se_echo *trial = NULL, *ini = NULL, pair[2];
     double *res = NULL, lo_lag, hi_lag;
     size_t b, e, i, maxk, m, s;
 
@@ -687,23 +707,22 @@ se_status se_fitecho(const se_echo_model *mdl, const double *x, size_t n,
      * only when strictly lower, so the greedy start keeps its answer on ties):
      *  0. the given (greedy, CLEAN) echoes;
      *  1. one echo at the largest matched-filter output of the window;
-     *  2. the best pair of integer lags by linear least squares (se_fit_best_pair). */
+     *  2. the best pair of integer lags by linear least squares (se_fit_best_pair).
+     * Costs stay near one search: an extra start is skipped when it repeats the given echoes or
+     * the model chosen so far, and searched from only when its first fit's BIC is within two
+     * echoes' penalty (4 ln N) of that model's (the searches add one echo at a time). */
     memset(&cur, 0, sizeof cur);
+    ini = se_calloc(n_init, sizeof *ini, "echo fit", err);
+    if (ini == NULL)
+        goto nomem;
+    memcpy(ini, init, n_init * sizeof *init);
     for (s = 0; s < 3; s++) {
-        se_echo *ini;
         size_t k;
         long kb;
         if (s == 0) {
-            ini = se_calloc(n_init, sizeof *ini, "echo fit", err);
-            if (ini == NULL)
+            /* sorts ini, kept for the comparisons below */
+            if (se_fit_start(&wk, ini, n_init, INFINITY, &cand, err) != 0)
                 goto nomem;
-            memcpy(ini, init, n_init * sizeof *init);
-            k = n_init;
-            if (se_fit_start(&wk, ini, k, &cand, err) != 0) {
-                free(ini);
-                goto nomem;
-            }
-            free(ini);
         } else {
             if (s == 1) {
                 se_fit_state none;
@@ -719,7 +738,12 @@ se_status se_fitecho(const se_echo_model *mdl, const double *x, size_t n,
                     continue;
                 k = 2;
             }
-            if (se_fit_start(&wk, pair, k, &cand, err) != 0)
+            qsort(pair, k, sizeof *pair, se_echo_cmp);
+            if (se_fit_same(pair, k, ini, n_init) || (cur.ok && se_fit_same(pair, k, cur.e, cur.k)))
+                continue;
+            if (se_fit_start(&wk, pair, k,
+                             cur.ok ? cur.bic + 4.0 * log((double)pr.nwin) : INFINITY, &cand,
+                             err) != 0)
                 goto nomem;
         }
         if (!cand.ok)
@@ -731,6 +755,7 @@ se_status se_fitecho(const se_echo_model *mdl, const double *x, size_t n,
             se_state_free(&cand);
         }
     }
+    free(ini);
     free(trial);
     free(res);
     if (!cur.ok)
@@ -750,6 +775,7 @@ se_status se_fitecho(const se_echo_model *mdl, const double *x, size_t n,
     return SE_OK;
 nomem:
     se_state_free(&cur);
+    free(ini);
     free(trial);
     free(res);
     return err ? err->code : SE_ERR_NOMEM;
