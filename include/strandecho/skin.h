@@ -121,9 +121,11 @@ typedef struct se_skin_result {
  * a = kappa (lag - lag0) / rate (kappa = K speed), the template for a (se_skin_template) is
  * correlated with x around the echo (normalised by its energy), the peak refined band-limited
  * (se_refine_peak), the lag updated and a rebuilt, until the lag moves less than 1e-6 sample (at
- * most 50 rebuilds, else SE_ERR_NUMERIC). The amplitude is then the template's.
- * With K = NaN, K is first estimated: for each trial K the max_fit_echoes strongest echoes are
- * fitted as above and the squared residual of x minus amplitude * template (sub-sample shifted)
+ * most 50 rebuilds, else SE_ERR_NUMERIC). The amplitude is then the template's. All echoes are
+ * fitted together (Gauss-Seidel, two sweeps: each one fitted on x minus the others' shifted
+ * templates), so the slow t^-1.5 tails of earlier echoes do not bias later ones.
+ * With K = NaN, K is first estimated: for each trial K the max_fit_echoes strongest well-separated
+ * echoes are fitted as above and the squared residual of x minus amplitude * template (sub-sample shifted)
  * summed over a window per echo that does not depend on K (half-way to the neighbouring echoes,
  * at most 16 m + 256 samples beyond the echo); the minimum over K is bracketed on a grid of a^2 fs
  * at the farthest fitted echo (0 and 0.05 x 2^j samples, up to half its delay, stopped 3 points past
@@ -133,9 +135,12 @@ typedef struct se_skin_result {
  *   pulse    [size: m] the reference pulse of the matched filter; borrowed
  *   echoes   [size: n_echoes] in/out (see se_skin_echo); any order
  *   res      out (may be NULL): K used and how it was found
- * Echoes whose window leaves the record are fitted on the part inside it. Returns SE_OK, SE_ERR_ARG
- * (NULL, bad config), SE_ERR_DATA (non-finite x or pulse), SE_ERR_RANGE (a template too long),
- * SE_ERR_NUMERIC, SE_ERR_NOMEM; on failure the echoes are unchanged. */
+ * Echoes whose window leaves the record are fitted on the part inside it; with no echo after the
+ * direct arrival nothing is estimated (res: K NaN, estimated 0). Returns SE_OK, SE_ERR_ARG (NULL,
+ * bad config), SE_ERR_DATA (non-finite x or pulse), SE_ERR_RANGE (a template too long),
+ * SE_ERR_NOTFOUND (an echo's fit left the record), SE_ERR_NUMERIC, SE_ERR_NOMEM; on failure the
+ * echoes are unchanged. Cost: per echo and rebuild two transforms of a power of two >= 2 (m + 400
+ * a^2 fs); the estimate repeats the joint fit some 20-30 times (tests/test_skin.c: 4 s for 4 cases). */
 se_status se_skin_correct(const double *x, size_t n, const double *pulse, size_t m,
                           const se_skin_config *cfg, se_skin_echo *echoes, size_t n_echoes,
                           se_skin_result *res, se_error *err);
