@@ -364,8 +364,10 @@ static void test_cli(void)
 {
     char cmd[2048], out[8192], path[1024];
     const char *cli = se_test_cli();
-    if (cli == NULL || cli[0] == '\0')
+    if (getenv("SE_CLI") == NULL || cli == NULL || cli[0] == '\0') {
+        printf("SE_CLI not set (run under ctest): the simulate --skin-loss checks are skipped\n");
         return;
+    }
     snprintf(cmd, sizeof cmd, "'%s' simulate --help", cli);
     CHECK(se_test_run(cmd, out, sizeof out) == 0);
     CHECK(strstr(out, "--skin-loss") != NULL && strstr(out, "s^0.5/m") != NULL);
