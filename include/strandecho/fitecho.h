@@ -74,7 +74,10 @@ void se_fitecho_config_init(se_fitecho_config *cfg);
  * one echo at the largest matched-filter output of the window, and (max_echoes >= 2) the pair of
  * integer lags within m/2 of the initial echoes' span, closer than m, that explains most of the
  * window by linear least squares (exhaustive; O(L m) for L candidate lags). The model with the
- * lowest BIC is kept, the greedy start's on ties. The extra starts matter for an oscillating
+ * lowest BIC is kept, the greedy start's on ties; with a single initial echo (n_init = 1) another
+ * start's model is only taken when its echoes are at least the pulse's main-lobe half width
+ * apart (first zero or minimum of its autocorrelation): closer, at high SNR, a small error of the
+ * pulse shape is fitted as well by two echoes. The extra starts matter for an oscillating
  * pulse: two same-sign echoes add their side lobes between them, and CLEAN's first pick there
  * leads the search from a comb of false echoes. *out: malloc'd array sorted by lag (caller frees),
  * *n_out its length (>= 1 unless every echo failed the tests, then 0 and *out NULL).
