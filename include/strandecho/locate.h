@@ -188,9 +188,12 @@ typedef struct se_locate_result {
     int attenuation_method;        /* SE_ATTEN_*: from a matched expected event of known
                                       coefficient (g = |A seen| / |(1 + r_s) r T|, alpha from
                                       g = 10^(-2 alpha d / 20)), or, with no such event, from the
-                                      end's repeats: A_k = r_s^(k-1) (r_end g^2 T^2)^k at k t_end
-                                      (weighted straight-line fit of log |A_k| over k, two
-                                      unknowns, so r_s need not be known), |r_end| = 1 assumed
+                                      end's repeats: A_k = r_s^(k-1) (r_end g^2 T^2)^k at k t_end,
+                                      seen as (1 + r_s) A_k (weighted straight-line fit of
+                                      log |(1 + r_s) A_k| = k s + b over k, two unknowns: r_s from
+                                      b = log |1 + r_s| - log |r_s|, so the r_s used does not
+                                      bias it; only repeats the pure repeat predicts within 20 %,
+                                      not low confidence), |r_end| = 1 assumed
                                       (fixed or free end, break): alpha = -20 log10 |g^2| / (2 L) */
     double attenuation_uncertainty_db_per_m; /* one standard uncertainty of an estimated
                                       attenuation (from the amplitude uncertainties), NaN else */
