@@ -4,6 +4,9 @@
  * samples with pulses of 256 and 4096 samples.
  *
  * usage: bench_perf [--min-log2 A] [--max-log2 B] [--reps R] [--dir D] [--threads T] [--pulse M]
+ *        bench_perf --child-bare N M T | --child-bare-float N M T   (one bare correlation, double
+ *                                        or fftw3f single precision: time, and for float the
+ *                                        largest error relative to max |r| of the double one)
  *        bench_perf --huge DIR [LOG2]   (one record of 2^LOG2 samples, default 30, M = 4096,
  *                                        written block by block as RF64 float, located, deleted)
  *   defaults: A = 20, B = 24, R = 5, D = /tmp/strandecho-bench, T = 2, pulses 256 and 4096.
@@ -30,6 +33,7 @@
 
 #include <pthread.h>
 
+#include <fftw3.h>
 #include <sndfile.h>
 
 #include "strandecho/locate.h"
@@ -55,6 +59,7 @@ static void pb_make_pulse(size_t m, double *s);
 static int pb_generate(const char *wav, const char *pulse, size_t n, size_t m);
 static int pb_child_stream(const char *wav, const char *pulse, unsigned threads);
 static int pb_child_bare(size_t n, size_t m, unsigned threads);
+static int pb_child_bare_float(size_t n, size_t m, unsigned threads);
 static pb_run pb_spawn(char *const argv[], int python);
 static int pb_cmp(const void *a, const void *b);
 static double pb_median(double *v, size_t n);
@@ -328,6 +333,146 @@ static int pb_child_bare(size_t n, size_t m, unsigned threads)
     return 0;
 }
 
+/* The same overlap-save correlation in single precision (fftw3f, FFTW_ESTIMATE, the double
+ * engine's block and chunks, input and output in float), for the cost a float detection pass
+ * would have: not used by strandecho (docs/performance.md says why). Prints its time and the
+ * largest |r_float - r_double| over the record relative to max |r_double|. */
+typedef struct pb_fpart {
+    fftwf_plan fwd, inv;
+    fftwf_complex *h; /* not const: a pointer to a const array type is not C11-compatible */
+    const float *x;
+    size_t n, m, from, to, block, step;
+    float *r, *in, *out;
+    fftwf_complex *spec;
+} pb_fpart;
+
+static void *pb_fpart_run(void *arg)
+{
+    pb_fpart *p = arg;
+    size_t o, q, nb = p->block / 2 + 1;
+    for (o = p->from; o < p->to; o += p->step) {
+        size_t cnt = p->n - o < p->block ? p->n - o : p->block;
+        size_t nout = p->to - o < p->step ? p->to - o : p->step;
+        memcpy(p->in, p->x + o, cnt * sizeof *p->in);
+        if (cnt < p->block)
+            memset(p->in + cnt, 0, (p->block - cnt) * sizeof *p->in);
+        fftwf_execute_dft_r2c(p->fwd, p->in, p->spec);
+        for (q = 0; q < nb; q++) {
+            float re = p->spec[q][0] * p->h[q][0] - p->spec[q][1] * p->h[q][1];
+            float im = p->spec[q][0] * p->h[q][1] + p->spec[q][1] * p->h[q][0];
+            p->spec[q][0] = re;
+            p->spec[q][1] = im;
+        }
+        fftwf_execute_dft_c2r(p->inv, p->spec, p->out);
+        memcpy(p->r + o, p->out, nout * sizeof *p->r);
+    }
+    return NULL;
+}
+
+static int pb_child_bare_float(size_t n, size_t m, unsigned threads)
+{
+    float *x = malloc(n * sizeof *x), *r = malloc(n * sizeof *r);
+    double *xd = malloc(n * sizeof *xd), *rd = malloc(n * sizeof *rd), *s = malloc(m * sizeof *s), t0;
+    double e = 0.0, emax = 0.0, rmax = 0.0;
+    size_t i, block = 1024, nb, step, half;
+    fftwf_complex *h;
+    float *tin;
+    pb_fpart part[2];
+    pthread_t tid;
+    se_xcorr *xc;
+    se_xcorr_work *w;
+    se_error err;
+    if (x == NULL || r == NULL || xd == NULL || rd == NULL || s == NULL)
+        return 1;
+    for (i = 0; i < n; i++) {
+        xd[i] = sin(0.001 * (double)i * (double)(i % 13));
+        x[i] = (float)xd[i];
+    }
+    pb_make_pulse(m, s);
+    while (block < 8 * m) /* se_xcorr's automatic block */
+        block <<= 1;
+    step = block - m + 1;
+    nb = block / 2 + 1;
+    h = fftwf_malloc(nb * sizeof *h);
+    tin = fftwf_malloc(block * sizeof *tin);
+    for (i = 0; i < 2; i++) {
+        part[i].in = fftwf_malloc(block * sizeof *part[i].in);
+        part[i].out = fftwf_malloc(block * sizeof *part[i].out);
+        part[i].spec = fftwf_malloc(nb * sizeof *part[i].spec);
+        if (part[i].in == NULL || part[i].out == NULL || part[i].spec == NULL)
+            return 1;
+    }
+    if (h == NULL || tin == NULL)
+        return 1;
+    part[0].fwd = fftwf_plan_dft_r2c_1d((int)block, part[0].in, part[0].spec, FFTW_ESTIMATE);
+    part[0].inv = fftwf_plan_dft_c2r_1d((int)block, part[0].spec, part[0].out, FFTW_ESTIMATE);
+    for (i = 0; i < m; i++)
+        e += s[i] * s[i];
+    memset(tin, 0, block * sizeof *tin);
+    for (i = 0; i < m; i++)
+        tin[i] = (float)s[i];
+    fftwf_execute_dft_r2c(part[0].fwd, tin, h);
+    for (i = 0; i < nb; i++) { /* conj(S) / (B E_s), as se_xcorr */
+        h[i][0] = (float)(h[i][0] / ((double)block * e));
+        h[i][1] = (float)(-h[i][1] / ((double)block * e));
+    }
+    half = threads > 1 ? (n / 2 + step - 1) / step * step : n;
+    if (half > n)
+        half = n;
+    for (i = 0; i < 2; i++) {
+        part[i].fwd = part[0].fwd;
+        part[i].inv = part[0].inv;
+        part[i].h = h;
+        part[i].x = x;
+        part[i].n = n;
+        part[i].m = m;
+        part[i].block = block;
+        part[i].step = step;
+        part[i].r = r;
+    }
+    part[0].from = 0;
+    part[0].to = half;
+    part[1].from = half;
+    part[1].to = n;
+    t0 = pb_now();
+    if (threads > 1 && half < n) {
+        pthread_create(&tid, NULL, pb_fpart_run, &part[1]);
+        pb_fpart_run(&part[0]);
+        pthread_join(tid, NULL);
+    } else {
+        pb_fpart_run(&part[0]);
+    }
+    printf("%.6f", pb_now() - t0);
+    /* accuracy against the double engine (not timed) */
+    xc = se_xcorr_create(s, m, 0, &err);
+    w = xc != NULL ? se_xcorr_work_create(xc, &err) : NULL;
+    if (w != NULL && se_xcorr_run(xc, w, xd, n, rd, &err) == SE_OK) {
+        for (i = 0; i < n; i++) {
+            emax = fmax(emax, fabs((double)r[i] - rd[i]));
+            rmax = fmax(rmax, fabs(rd[i]));
+        }
+        printf(" %.3g", emax / rmax);
+    }
+    printf("\n");
+    se_xcorr_work_destroy(w);
+    se_xcorr_destroy(xc);
+    fftwf_destroy_plan(part[0].fwd);
+    fftwf_destroy_plan(part[0].inv);
+    for (i = 0; i < 2; i++) {
+        fftwf_free(part[i].in);
+        fftwf_free(part[i].out);
+        fftwf_free(part[i].spec);
+    }
+    fftwf_free(h);
+    fftwf_free(tin);
+    free(x);
+    free(r);
+    free(xd);
+    free(rd);
+    free(s);
+    return 0;
+}
+
 /* Run argv in a child, read its one line of output, its peak memory from wait4. For the
  * python reference the time is the script's own (read to peaks, imports excluded). */
 static pb_run pb_spawn(char *const argv[], int python)
@@ -428,6 +573,9 @@ int main(int argc, char **argv)
         printf("\n");
         return 0;
     }
+    if (argc >= 2 && strcmp(argv[1], "--child-bare-float") == 0 && argc == 5)
+        return pb_child_bare_float((size_t)strtoull(argv[2], NULL, 10),
+                                   (size_t)strtoull(argv[3], NULL, 10), (unsigned)atoi(argv[4]));
     if (argc >= 2 && strcmp(argv[1], "--child-bare") == 0 && argc == 5)
         return pb_child_bare((size_t)strtoull(argv[2], NULL, 10), (size_t)strtoull(argv[3], NULL, 10),
                              (unsigned)atoi(argv[4]));
