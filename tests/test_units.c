@@ -4,11 +4,13 @@
  * 811, "Guide for the Use of the International System of Units (SI)", 2008 edition, appendix B.8
  * (factors listed alphabetically). Exact factors are checked to the last bit or 1e-15 relative,
  * the 7-digit rounded ones to 5e-7 relative. */
+#include <complex.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
+#include "strandecho/skin.h"
 #include "strandecho/units.h"
 #include "testutil.h"
 
@@ -53,6 +55,159 @@ static void check_fail(const char *text, se_unit_kind kind, const char *default_
     se_check(strstr(err.message, part) != NULL, __FILE__, __LINE__, what);
     snprintf(what, sizeof what, "'%s': output untouched on failure", text ? text : "(null)");
     se_check(si == 12345.0, __FILE__, __LINE__, what);
+}
+
+/* Re sqrt(j w), by the complex square root (skin.h: sqrt(j w) = sqrt(w / 2) (1 + j)). */
+static double creal_sqrt_jw(double w)
+{
+    return creal(csqrt(w * I));
+}
+
+/* Tolerance (dB) of the template round trip below. The template is the band-limited response cut
+ * after SE_SKIN_TAIL_FACTOR a^2 fs samples; the cut costs accuracy at 100 MHz when a^2 fs is a few
+ * samples. Measured 2026-12-02 (a = 4.287e-5 s^0.5): 6.4379 dB at 1.6 GHz, 6.6128 dB at 6.4 GHz,
+ * 6.59951 dB at 25.6 GHz (used: 4.9e-4 dB off); the same cut applied to the exact inverse DFT of
+ * H gives the same 6.4378 dB at 1.6 GHz, so it is the cut, not the conversion. */
+#define SKIN_TEMPLATE_DB_TOL 1e-3
+
+/* Attenuation (dB) at f of se_skin_template for a = K l, unit-sample pulse, rate fs: the magnitude
+ * of the template's DFT at f (the unit sample's own spectrum is 1 at every f). NAN on failure. */
+static double skin_template_db(double a, double fs, double f)
+{
+    double one = 1.0, *h = NULL, re = 0.0, im = 0.0;
+    size_t n = 0, k;
+    se_error err;
+    se_error_clear(&err);
+    if (se_skin_template(&one, 1, fs, a, 0.0, &h, &n, NULL, &err) != SE_OK) {
+        fprintf(stderr, "  se_skin_template: %s\n", err.message);
+        return NAN;
+    }
+    for (k = 0; k < n; k++) {
+        double ph = -2.0 * 3.14159265358979323846 * f * (double)k / fs;
+        re += h[k] * cos(ph);
+        im += h[k] * sin(ph);
+    }
+    free(h);
+    return -20.0 * log10(sqrt(re * re + im * im));
+}
+
+/* se_skin_loss_parse must fail with code, a message containing part and naming the text. */
+static void check_skin_fail(const char *text, se_status code, const char *part)
+{
+    se_error err;
+    double k = 12345.0;
+    se_status st;
+    char what[800];
+    se_error_clear(&err);
+    st = se_skin_loss_parse(text, &k, &err);
+    snprintf(what, sizeof what, "skin loss '%s' fails with %s (got %s: '%s')", text ? text : "(null)",
+             se_strerror(code), se_strerror(st), err.message);
+    se_check(st == code && err.code == code, __FILE__, __LINE__, what);
+    snprintf(what, sizeof what, "skin loss '%s': message '%s' contains '%s'", text ? text : "(null)",
+             err.message, part);
+    se_check(strstr(err.message, part) != NULL, __FILE__, __LINE__, what);
+    snprintf(what, sizeof what, "skin loss '%s': one line", text ? text : "(null)");
+    se_check(strchr(err.message, '\n') == NULL, __FILE__, __LINE__, what);
+    snprintf(what, sizeof what, "skin loss '%s': output untouched on failure", text ? text : "(null)");
+    se_check(k == 12345.0, __FILE__, __LINE__, what);
+}
+
+static double skin_k(const char *text)
+{
+    se_error err;
+    double k = NAN;
+    se_error_clear(&err);
+    if (se_skin_loss_parse(text, &k, &err) != SE_OK)
+        fprintf(stderr, "  skin loss '%s': %s\n", text, err.message);
+    return k;
+}
+
+/* Skin-effect loss: K in s^0.5/m or a datasheet attenuation (units.h se_skin_loss_parse). */
+static void test_skin_loss(void)
+{
+    /* K of 6.6 dB/100 m at 100 MHz, independently: alpha = 6.6 / 100 dB/m, in Np/m by ln(10) / 20
+     * (1 Np = 20 log10(e) dB exactly: ISO 80000-3, NIST SP 811 [pub]), over sqrt(pi f) [calc] */
+    const double k66 = 6.6 / 100.0 * log(10.0) / 20.0 / sqrt(3.14159265358979323846 * 1e8);
+    double k, db, mag;
+    se_error err;
+
+    /* 1 Np = 20 log10(e) dB = 8.685889638 dB (ISO 80000-3; NIST SP 811, 2008 [pub]) */
+    CHECK_CLOSE(SE_DB_PER_NEPER, 8.685889638, 5e-10, "1 Np = 8.685889638 dB (ISO 80000-3, NIST SP 811)");
+    CHECK_CLOSE(SE_DB_PER_NEPER, 20.0 * log10(exp(1.0)), 1e-14, "dB per Np = 20 log10(e) [calc]");
+
+    /* the bare number and the named unit are K itself */
+    CHECK(skin_k("4e-7") == 4e-7);
+    CHECK(skin_k("4e-7 s^0.5/m") == 4e-7);
+    CHECK(skin_k("  4e-7s^0.5/m ") == 4e-7);
+    CHECK(skin_k("4e-7 s^(1/2)/m") == 4e-7);
+    CHECK(skin_k("4e-7 sqrt(s)/m") == 4e-7);
+    CHECK(skin_k("4e-7 s^0.5 / m") == 4e-7);
+    CHECK(skin_k("0") == 0.0);
+
+    /* the datasheet forms */
+    CHECK_CLOSE(skin_k("6.6 dB/100m@100MHz"), k66, 1e-15 * k66, "6.6 dB/100m@100MHz [calc]");
+    CHECK_CLOSE(skin_k("6.6 dB/100 m at 100 MHz"), k66, 1e-15 * k66, "'at' form");
+    CHECK_CLOSE(skin_k("6.6 dB / 100 m @ 100 MHz"), k66, 1e-15 * k66, "spaced form");
+    CHECK_CLOSE(skin_k("6.6 dB per 100 m at 100 MHz"), k66, 1e-15 * k66, "'per' form");
+    CHECK_CLOSE(skin_k("66 dB/km at 100 MHz"), k66, 1e-15 * k66, "66 dB/km = 6.6 dB/100 m");
+    CHECK_CLOSE(skin_k("0.066 dB/m@0.1GHz"), k66, 1e-15 * k66, "per metre, GHz");
+    CHECK_CLOSE(skin_k("0.066 dB/m@100000 kHz"), k66, 1e-15 * k66, "kHz");
+    CHECK_CLOSE(skin_k("6.6 db/100m@100MHz"), k66, 1e-15 * k66, "db spelt lower case");
+    /* nepers: 6.6 dB = 6.6 / 8.685889638 Np (ISO 80000-3 [pub]) */
+    CHECK_CLOSE(skin_k("7.59853080688e-3 Np/m @ 100 MHz"), k66, 1e-11 * k66, "Np/m form");
+    /* feet: 1 ft = 0.3048 m exactly (NIST SP 811, 2008, B.8 [pub]) */
+    CHECK_CLOSE(skin_k("2.0 dB/100ft@10MHz"),
+                2.0 / (100.0 * 0.3048) * log(10.0) / 20.0 / sqrt(3.14159265358979323846 * 1e7),
+                1e-15 * k66, "2.0 dB/100ft@10MHz (SP 811 B.8 foot 3.048 E-01 E)");
+    /* K goes as 1 / sqrt(f) for the same dB figure, and as the dB figure [calc] */
+    CHECK_CLOSE(skin_k("6.6 dB/100m@400MHz"), 0.5 * k66, 1e-15 * k66, "f x 4: K / 2");
+    CHECK_CLOSE(skin_k("13.2 dB/100m@100MHz"), 2.0 * k66, 1e-15 * k66, "dB x 2: K x 2");
+    CHECK(se_skin_loss_from_attenuation(6.6, 100.0, 1e8, &k, NULL) == SE_OK);
+    CHECK_CLOSE(k, k66, 1e-15 * k66, "from_attenuation");
+
+    /* Round trip through the model's own formula: |H(j w)| = exp(-K l Re sqrt(j w)) with
+     * Re sqrt(j w) = sqrt(w / 2) (skin.h), at 100 MHz over 100 m gives back 6.6 dB [calc] */
+    k = skin_k("6.6 dB/100m@100MHz");
+    mag = exp(-k * 100.0 * creal_sqrt_jw(2.0 * 3.14159265358979323846 * 1e8));
+    CHECK_CLOSE(-20.0 * log10(mag), 6.6, 1e-9, "round trip: 6.6 dB back from K (formula)");
+    CHECK_CLOSE(se_skin_loss_attenuation_db(k, 100.0, 1e8), 6.6, 1e-12, "attenuation_db inverse");
+    CHECK(isnan(se_skin_loss_attenuation_db(-1.0, 100.0, 1e8)));
+    /* ... and through se_skin_template: the DFT at 100 MHz of the response of 100 m to a unit
+     * sample at 25.6 GHz (see SKIN_TEMPLATE_DB_TOL) */
+    db = skin_template_db(k * 100.0, 25.6e9, 1e8);
+    CHECK_CLOSE(db, 6.6, SKIN_TEMPLATE_DB_TOL, "round trip: 6.6 dB back from se_skin_template");
+
+    /* errors: one line naming the text and what is wrong */
+    check_skin_fail("6.6 dB/100 m", SE_ERR_ARG, "skin loss '6.6 dB/100 m': missing frequency");
+    check_skin_fail("6.6 dB/100m@", SE_ERR_ARG, "missing frequency after '@'");
+    check_skin_fail("6.6 dB@100MHz", SE_ERR_ARG, "missing length");
+    check_skin_fail("6.6 dB", SE_ERR_ARG, "missing length");
+    check_skin_fail("6.6 dB/@100MHz", SE_ERR_ARG, "missing length after '/'");
+    check_skin_fail("6.6 dB/100 furlong@100MHz", SE_ERR_UNIT, "the length: unknown unit 'furlong'");
+    check_skin_fail("6.6 dB/100@100MHz", SE_ERR_UNIT, "the length: missing unit for a length");
+    check_skin_fail("6.6 dB/0 m@100MHz", SE_ERR_RANGE, "the length must be positive");
+    check_skin_fail("6.6 dB/100m@100", SE_ERR_UNIT, "the frequency: missing unit for a frequency");
+    check_skin_fail("6.6 dB/100m@100 mhz", SE_ERR_UNIT, "did you mean 'MHz'?");
+    check_skin_fail("6.6 dB/100m@0 Hz", SE_ERR_RANGE, "the frequency must be positive");
+    check_skin_fail("6.6 dB/100m@100MHz and more", SE_ERR_UNIT, "the frequency:");
+    check_skin_fail("-6.6 dB/100m@100MHz", SE_ERR_RANGE, "skin loss '-6.6 dB/100m@100MHz' is negative");
+    check_skin_fail("-4e-7", SE_ERR_RANGE, "is negative");
+    check_skin_fail("nan", SE_ERR_ARG, "skin loss 'nan': not a finite number");
+    check_skin_fail("inf dB/100m@100MHz", SE_ERR_ARG, "not a finite number");
+    check_skin_fail("1e999", SE_ERR_RANGE, "overflows");
+    check_skin_fail("6.6 dB/100m@1e-300 Hz", SE_ERR_RANGE, "above 1");
+    check_skin_fail("6.6", SE_ERR_RANGE, "skin loss '6.6' is K = 6.6 s^0.5/m, above 1");
+    check_skin_fail("4e-7 s^0.5/km", SE_ERR_UNIT, "unknown unit 's^0.5/km'");
+    check_skin_fail("6.6 dBm/100m@100MHz", SE_ERR_ARG, "missing length");
+    check_skin_fail("abc", SE_ERR_ARG, "skin loss 'abc': not a number");
+    check_skin_fail("", SE_ERR_ARG, "empty value");
+    check_skin_fail("   ", SE_ERR_ARG, "empty value");
+    se_error_clear(&err);
+    CHECK(se_skin_loss_parse(NULL, &k, &err) == SE_ERR_ARG && strstr(err.message, "NULL") != NULL);
+    CHECK(se_skin_loss_parse("4e-7", NULL, NULL) == SE_ERR_ARG);
+    CHECK(se_skin_loss_from_attenuation(-1.0, 100.0, 1e8, &k, NULL) == SE_ERR_RANGE);
+    CHECK(se_skin_loss_from_attenuation(1.0, 0.0, 1e8, &k, NULL) == SE_ERR_RANGE);
+    CHECK(se_skin_loss_from_attenuation(1.0, 100.0, NAN, &k, NULL) == SE_ERR_RANGE);
 }
 
 int main(void)
@@ -250,5 +405,6 @@ int main(void)
     CHECK(se_unit_factor(SE_UNIT_LENGTH, "ft", &v, NULL) == SE_OK && v == 0.3048);
     CHECK(se_unit_factor(SE_UNIT_LENGTH, "furlong", &v, NULL) == SE_ERR_UNIT);
 
+    test_skin_loss();
     return se_test_done("test_units");
 }

@@ -11,6 +11,10 @@
  * millinewton and is rejected rather than guessed); "kN" and "KN", "kHz" and "KHz" are both
  * accepted. "us", "\u00b5s" (micro sign) and "\u03bcs" (Greek mu) are all microseconds; "ohm",
  * "\u03a9" and "\u2126" are all ohms. The library keeps no state: every function is reentrant.
+ *
+ * A cable's skin-effect loss has its own parser, se_skin_loss_parse(), taking K in s^0.5/m or a
+ * datasheet attenuation ("6.6 dB/100 m @ 100 MHz"): every option and file key that takes a skin
+ * loss goes through it.
  */
 #ifndef SE_UNITS_H
 #define SE_UNITS_H
@@ -75,6 +79,53 @@ se_status se_unit_from_si(double si, se_unit_kind kind, const char *unit, double
 /* Factor of a unit: SI value = value x factor (e.g. 0.3048 for "ft" as a length).
  * Returns SE_OK or SE_ERR_UNIT as se_unit_from_si(). */
 se_status se_unit_factor(se_unit_kind kind, const char *unit, double *factor, se_error *err);
+
+/* Decibels per neper, 20 log10(e) = 20 / ln 10 (exact relation 1 Np = 20 log10(e) dB:
+ * ISO 80000-3 and NIST SP 811, 2008, on the neper and the bel): an amplitude ratio exp(-x) is 20 log10(e) x dB. */
+#define SE_DB_PER_NEPER 8.6858896380650365530
+
+/* Largest skin-loss constant accepted, s^0.5/m. Cables lie near 1e-8 .. 1e-5 s^0.5/m (a coaxial
+ * cable of 6.6 dB/100 m at 100 MHz is 4.3e-7); a bare number above this is taken for a misplaced
+ * datasheet figure (e.g. "6.6" without its "dB/100 m @ 100 MHz") and refused. */
+#define SE_SKIN_LOSS_MAX 1.0
+
+/* Parse a cable's skin-effect loss constant K (skin.h: H(s) = exp(-K l sqrt(s)), K in s^0.5 per
+ * metre) from either of two forms:
+ *   K itself          "4e-7", "4e-7 s^0.5/m" (also "s^(1/2)/m", "sqrt(s)/m"; a bare number is
+ *                     s^0.5/m; white space inside the unit is ignored)
+ *   a datasheet value "6.6 dB/100m@100MHz", "6.6 dB/100 m at 100 MHz", "2.0 dB/100ft@10MHz",
+ *                     "66 dB/km at 100 MHz", "0.2 dB/m @ 1 GHz", "0.0076 Np/m @ 100 MHz":
+ *                     an attenuation in dB (or Np) per a length (any se_unit_parse length, an
+ *                     optional count before it: "/100 m", "/100ft", "/km", "/m"; "per" may
+ *                     replace "/"), then "@" or " at " and the frequency it holds at (Hz,
+ *                     kHz, MHz, GHz; the unit is required).
+ * The datasheet form is converted with |H(j 2 pi f)| = exp(-K l sqrt(pi f)) (sqrt(j w) has real
+ * part sqrt(w / 2)): alpha(f) = K sqrt(pi f) Np/m, so
+ *     K = alpha_dB_per_m / (SE_DB_PER_NEPER sqrt(pi f)).
+ * This takes ALL of the cable's loss at f for skin-effect (conductor) loss. Dielectric loss
+ * (growing as f, not sqrt(f)) is not modelled: a figure quoted at a high frequency where it
+ * dominates over-states K. Quote the datasheet value at the lowest listed frequency near the
+ * pulse's band.
+ *   text         : the value; leading and trailing white space ignored. NUL-terminated.
+ *   k_s05_per_m  : [out] K, s^0.5/m, 0 <= K <= SE_SKIN_LOSS_MAX; untouched on failure.
+ *   err          : [out, may be NULL] one line naming the text and what is wrong.
+ * Returns SE_OK; SE_ERR_ARG for NULL or empty text, not a number, a non-finite number, a
+ * datasheet value without its length or its frequency ("missing frequency"), or text after it;
+ * SE_ERR_UNIT for an unknown unit (of the value, the length or the frequency) or a missing
+ * length or frequency unit; SE_ERR_RANGE for a negative value, a zero length or frequency, or a
+ * K above SE_SKIN_LOSS_MAX (or one that overflows). */
+se_status se_skin_loss_parse(const char *text, double *k_s05_per_m, se_error *err);
+
+/* K from a datasheet attenuation: db_per_length dB over length_m metres at freq_hz.
+ *   db_per_length >= 0 and finite; length_m > 0; freq_hz > 0.
+ *   k_s05_per_m   : [out] K, s^0.5/m (no upper bound here); untouched on failure.
+ * Returns SE_OK or SE_ERR_RANGE (naming the value). */
+se_status se_skin_loss_from_attenuation(double db_per_length, double length_m, double freq_hz,
+                                        double *k_s05_per_m, se_error *err);
+
+/* The inverse, for printing: attenuation in dB of length_m metres of cable with K at freq_hz,
+ * SE_DB_PER_NEPER K length_m sqrt(pi freq_hz). NAN for a negative or non-finite argument. */
+double se_skin_loss_attenuation_db(double k_s05_per_m, double length_m, double freq_hz);
 
 #ifdef __cplusplus
 }

@@ -438,3 +438,204 @@ se_status se_unit_from_si(double si, se_unit_kind kind, const char *unit, double
         *out = si * u->div / u->mul;
     return SE_OK;
 }
+
+/* ---- skin-effect loss: K in s^0.5/m or a datasheet attenuation ------------------------------ */
+
+/* Longest skin-loss text looked at. */
+#define SE_SKIN_TEXT_MAX 128
+
+static se_status se_skin_copy_trim(const char *s, size_t n, char *out, size_t size);
+static int se_skin_is_k_unit(const char *unit);
+
+/* Copy s[0..n) without leading and trailing white space into out; -1 if it does not fit. */
+static se_status se_skin_copy_trim(const char *s, size_t n, char *out, size_t size)
+{
+    while (n > 0 && se_is_space(*s)) {
+        s++;
+        n--;
+    }
+    while (n > 0 && se_is_space(s[n - 1]))
+        n--;
+    if (n + 1 > size)
+        return SE_ERR_RANGE;
+    memcpy(out, s, n);
+    out[n] = '\0';
+    return SE_OK;
+}
+
+/* "s^0.5/m" and its spellings, white space ignored. */
+static int se_skin_is_k_unit(const char *unit)
+{
+    static const char *const names[] = {"s^0.5/m", "s^.5/m", "s^(1/2)/m", "s^1/2/m",
+                                        "sqrt(s)/m", "s0.5/m", "\xe2\x88\x9as/m", NULL};
+    char compact[SE_SKIN_TEXT_MAX];
+    size_t i, n = 0;
+    for (i = 0; unit[i] != '\0' && n + 1 < sizeof compact; i++)
+        if (!se_is_space(unit[i]))
+            compact[n++] = unit[i];
+    compact[n] = '\0';
+    for (i = 0; names[i] != NULL; i++)
+        if (strcmp(compact, names[i]) == 0)
+            return 1;
+    return 0;
+}
+
+se_status se_skin_loss_from_attenuation(double db_per_length, double length_m, double freq_hz,
+                                        double *k_s05_per_m, se_error *err)
+{
+    double k;
+    if (k_s05_per_m == NULL)
+        return se_fail(err, SE_ERR_ARG, "NULL argument to se_skin_loss_from_attenuation");
+    if (!isfinite(db_per_length) || db_per_length < 0.0)
+        return se_fail(err, SE_ERR_RANGE, "attenuation %g dB must be finite and not negative",
+                       db_per_length);
+    if (!isfinite(length_m) || !(length_m > 0.0))
+        return se_fail(err, SE_ERR_RANGE, "attenuation per %g m: the length must be positive",
+                       length_m);
+    if (!isfinite(freq_hz) || !(freq_hz > 0.0))
+        return se_fail(err, SE_ERR_RANGE, "attenuation at %g Hz: the frequency must be positive",
+                       freq_hz);
+    /* |H(j w)| = exp(-K l sqrt(w / 2)) = exp(-K l sqrt(pi f)): alpha = K sqrt(pi f) Np/m */
+    k = db_per_length / SE_DB_PER_NEPER / length_m / sqrt(SE_PI * freq_hz);
+    if (!isfinite(k))
+        return se_fail(err, SE_ERR_RANGE, "%g dB per %g m at %g Hz overflows as K", db_per_length,
+                       length_m, freq_hz);
+    *k_s05_per_m = k;
+    return SE_OK;
+}
+
+double se_skin_loss_attenuation_db(double k_s05_per_m, double length_m, double freq_hz)
+{
+    if (!isfinite(k_s05_per_m) || !isfinite(length_m) || !isfinite(freq_hz) ||
+        k_s05_per_m < 0.0 || length_m < 0.0 || freq_hz < 0.0)
+        return NAN;
+    return SE_DB_PER_NEPER * k_s05_per_m * length_m * sqrt(SE_PI * freq_hz);
+}
+
+se_status se_skin_loss_parse(const char *text, double *k_s05_per_m, se_error *err)
+{
+    static const char *const hint = "give K in s^0.5/m, e.g. '4e-7', or a datasheet attenuation, "
+                                    "e.g. '6.6 dB/100 m @ 100 MHz'";
+    char buf[SE_SKIN_TEXT_MAX], num[SE_NUMBER_TEXT_MAX], len_text[SE_SKIN_TEXT_MAX];
+    char freq_text[SE_SKIN_TEXT_MAX];
+    const char *rest, *at;
+    size_t nn, len_n;
+    double v, k, per_m, freq_hz, np_factor;
+    se_error sub;
+    se_status st;
+    char *end;
+
+    if (text == NULL || k_s05_per_m == NULL)
+        return se_fail(err, SE_ERR_ARG, "NULL argument to se_skin_loss_parse");
+    if (se_skin_copy_trim(text, strlen(text), buf, sizeof buf) != SE_OK)
+        return se_fail(err, SE_ERR_ARG, "skin loss '%.60s...': too long for a value", text);
+    if (buf[0] == '\0')
+        return se_fail(err, SE_ERR_ARG, "skin loss: empty value (%s)", hint);
+    if (se_looks_nonfinite(buf))
+        return se_fail(err, SE_ERR_ARG, "skin loss '%s': not a finite number", buf);
+    nn = se_scan_number(buf);
+    if (nn == 0)
+        return se_fail(err, SE_ERR_ARG, "skin loss '%s': not a number (%s)", buf, hint);
+    if (nn >= sizeof num)
+        return se_fail(err, SE_ERR_ARG, "skin loss '%s': number too long", buf);
+    memcpy(num, buf, nn);
+    num[nn] = '\0';
+    errno = 0;
+    v = strtod(num, &end);
+    if (errno == ERANGE && fabs(v) > 1.0)
+        return se_fail(err, SE_ERR_RANGE, "skin loss '%s': the number overflows a double", buf);
+    if (!isfinite(v))
+        return se_fail(err, SE_ERR_ARG, "skin loss '%s': not a finite number", buf);
+    if (v < 0.0)
+        return se_fail(err, SE_ERR_RANGE, "skin loss '%s' is negative: a loss is >= 0", buf);
+    rest = buf + nn;
+    while (se_is_space(*rest))
+        rest++;
+
+    if (*rest == '\0' || se_skin_is_k_unit(rest)) {
+        k = v;
+    } else {
+        if (strncmp(rest, "dB", 2) == 0 || strncmp(rest, "db", 2) == 0)
+            np_factor = 1.0;
+        else if (strncmp(rest, "Np", 2) == 0)
+            np_factor = SE_DB_PER_NEPER;
+        else
+            return se_fail(err, SE_ERR_UNIT, "skin loss '%s': unknown unit '%s' (%s)", buf, rest,
+                           hint);
+        rest += 2;
+        while (se_is_space(*rest))
+            rest++;
+        if (*rest == '/')
+            rest++;
+        else if (strncmp(rest, "per", 3) == 0 && se_is_space(rest[3]))
+            rest += 4;
+        else
+            return se_fail(err, SE_ERR_ARG,
+                           "skin loss '%s': missing length: an attenuation is per a length of "
+                           "cable, e.g. '%.2s/100 m @ 100 MHz'",
+                           buf, np_factor == 1.0 ? "dB" : "Np");
+        at = strchr(rest, '@');
+        if (at == NULL) {
+            const char *w = strstr(rest, " at ");
+            if (w == NULL)
+                w = strstr(rest, "\tat ");
+            at = w != NULL ? w + 1 : NULL;
+            len_n = at != NULL ? (size_t)(at - rest) : strlen(rest);
+            if (at != NULL)
+                at += 2;
+        } else {
+            len_n = (size_t)(at - rest);
+            at += 1;
+        }
+        if (at == NULL)
+            return se_fail(err, SE_ERR_ARG,
+                           "skin loss '%s': missing frequency: a datasheet attenuation holds at "
+                           "one frequency, write e.g. '%s @ 100 MHz'",
+                           buf, buf);
+        /* the length, with a count of 1 when only a unit is written ("dB/km") */
+        if (se_skin_copy_trim(rest, len_n, len_text + 2, sizeof len_text - 2) != SE_OK)
+            return se_fail(err, SE_ERR_ARG, "skin loss '%s': length too long", buf);
+        if (len_text[2] == '\0')
+            return se_fail(err, SE_ERR_ARG,
+                           "skin loss '%s': missing length after '/', e.g. '/100 m'", buf);
+        if (se_scan_number(len_text + 2) == 0 && !se_looks_nonfinite(len_text + 2)) {
+            len_text[0] = '1';
+            len_text[1] = ' ';
+            rest = len_text;
+        } else {
+            rest = len_text + 2;
+        }
+        se_error_clear(&sub);
+        st = se_unit_parse(rest, SE_UNIT_LENGTH, NULL, &per_m, &sub);
+        if (st != SE_OK)
+            return se_fail(err, st, "skin loss '%s': the length: %s", buf, sub.message);
+        if (!(per_m > 0.0))
+            return se_fail(err, SE_ERR_RANGE, "skin loss '%s': the length must be positive", buf);
+        if (se_skin_copy_trim(at, strlen(at), freq_text, sizeof freq_text) != SE_OK)
+            return se_fail(err, SE_ERR_ARG, "skin loss '%s': frequency too long", buf);
+        if (freq_text[0] == '\0')
+            return se_fail(err, SE_ERR_ARG,
+                           "skin loss '%s': missing frequency after '@', e.g. '@ 100 MHz'", buf);
+        se_error_clear(&sub);
+        st = se_unit_parse(freq_text, SE_UNIT_FREQUENCY, NULL, &freq_hz, &sub);
+        if (st != SE_OK)
+            return se_fail(err, st, "skin loss '%s': the frequency: %s", buf, sub.message);
+        if (!(freq_hz > 0.0))
+            return se_fail(err, SE_ERR_RANGE, "skin loss '%s': the frequency must be positive",
+                           buf);
+        se_error_clear(&sub);
+        st = se_skin_loss_from_attenuation(v * np_factor, per_m, freq_hz, &k, &sub);
+        if (st != SE_OK)
+            return se_fail(err, st, "skin loss '%s': %s", buf, sub.message);
+    }
+    if (!isfinite(k))
+        return se_fail(err, SE_ERR_RANGE, "skin loss '%s' overflows", buf);
+    if (k > SE_SKIN_LOSS_MAX)
+        return se_fail(err, SE_ERR_RANGE,
+                       "skin loss '%s' is K = %g s^0.5/m, above %g: not a cable's (they lie near "
+                       "1e-8 to 1e-5 s^0.5/m); a datasheet figure needs its unit, e.g. '6.6 "
+                       "dB/100 m @ 100 MHz'",
+                       buf, k, SE_SKIN_LOSS_MAX);
+    *k_s05_per_m = k;
+    return SE_OK;
+}
