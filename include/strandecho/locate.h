@@ -65,6 +65,14 @@ typedef struct se_locate_config {
      * threshold (default; se_locate_stream follows it with the same results). 0 keeps one
      * threshold for the whole record. */
     int noise_tracking;
+    /* Skin-effect loss of a cable (skin.h): K in s^0.5 per metre, H(s) = exp(-K l sqrt(s)) over a
+     * length l. 0 (default) = none; NaN = estimate K from the echoes' shapes. With skin loss each
+     * detection is matched with its own loss-shaped template (the matched filter with the
+     * lossless pulse puts distorted echoes late and splits them into several peaks): the delays
+     * and amplitudes become the templates', the pieces of a split echo are dropped, and the
+     * overlap refit (a lossless model) is not run. One speed: cfg.speed_m_s, or with a map the
+     * mean speed to the farthest detection. Whole-record only: se_locate_stream refuses it. */
+    double skin_k_s05_per_m;
 } se_locate_config;
 
 #define SE_STACKING_AUTO 0   /* stack when several shots are found (mean) */
@@ -107,6 +115,11 @@ typedef struct se_event {
     int previous_shot;             /* with multiple: 0 when the reverberation of this shot explains
                                       it, k >= 1 when the echoes of the shot k taps earlier do
                                       (taps closer than the line's ring-down) */
+    int skin_corrected;            /* 1 when the delay and amplitude come from the loss-shaped
+                                      template (skin.h); delay_uncertainty_s is then the template
+                                      fit's (with the estimated K's share) */
+    double skin_shift_s;           /* with skin_corrected: how much earlier than the plain matched
+                                      filter's peak the echo was placed, s (>= 0 in practice) */
     double predicted;              /* the multiple field predicted at the event from the primaries
                                       before it (and the previous shots'), reflection units: the
                                       sum of every lattice path within the main lobe, weighted by
@@ -205,6 +218,15 @@ typedef struct se_locate_result {
      * the mean interval, and shots_overlap = 1 when it is shorter than the ring-down: the
      * previous taps' echoes then lie in this one (events they explain are labelled multiple with
      * previous_shot = k). */
+    /* Skin-effect loss (cfg.skin_k_s05_per_m != 0): K used (given or estimated), one standard
+     * uncertainty of an estimated K (NaN else), whether estimated and from how many echoes, and
+     * how many detections were dropped as pieces of a stronger echo's loss-shaped tail. NaN/0
+     * without skin loss. */
+    double skin_k_s05_per_m;
+    double skin_k_uncertainty;
+    int skin_k_estimated;
+    size_t skin_fit_echoes;
+    size_t skin_explained;
     double ring_down_s;
     double shot_interval_s;        /* 0 for a single shot */
     int shots_overlap;

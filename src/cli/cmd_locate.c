@@ -59,6 +59,10 @@ static const char se_locate_usage[] =
     "  --noise-tracking on|off  thresholds follow noise that changes along the record (default on)\n"
     "  --confidence P           coverage of the distance intervals (default 0.95)\n"
     "  --max-events N           at most N events (default 64)\n"
+    "  --skin-loss K|estimate   skin-effect loss of a cable: K in s^0.5/m, or the datasheet form\n"
+    "                           \"6.6 dB/100m@100MHz\" (all of it taken as conductor loss), or\n"
+    "                           estimate (from the echoes' shapes); echoes are matched with\n"
+    "                           loss-shaped templates so their delays are not late (default none)\n"
     "Output:\n"
     "  --json PATH              write the result as JSON (- for standard output)\n"
     "  --memory-limit MIB       largest recording read whole, MiB of samples as doubles (default\n"
@@ -173,7 +177,7 @@ int se_cmd_locate(int argc, char **argv)
     int have_refsha = 0, rc = SE_EXIT_OK, got;
 
     unsigned long mem_mib = 2048;
-    const char *stacking = NULL;
+    const char *stacking = NULL, *skin_text = NULL;
     int stream = 0, rec_is_header = 0;
     se_recording header;
     memset(&header, 0, sizeof header);
@@ -204,6 +208,7 @@ int se_cmd_locate(int argc, char **argv)
         SE_TAKE("--report", report)
         SE_TAKE("--csv", csv)
         SE_TAKE("--title", title)
+        SE_TAKE("--skin-loss", skin_text)
         SE_TAKE_UINT("--channel", 1, 65535, channel)
         SE_TAKE_UINT("--pulse-channel", 1, 65535, pulse_channel)
         SE_TAKE_UINT("--memory-limit", 1, 1048576, mem_mib)
@@ -290,6 +295,12 @@ int se_cmd_locate(int argc, char **argv)
     cfg.false_alarms = fa;
     cfg.confidence = conf;
     cfg.max_events = max_events;
+    if (skin_text != NULL) {
+        if (strcmp(skin_text, "estimate") == 0)
+            cfg.skin_k_s05_per_m = NAN;
+        else if (se_skin_loss_parse(skin_text, &cfg.skin_k_s05_per_m, &err) != SE_OK)
+            return se_cli_fail(SE_EXIT_USAGE, "--skin-loss: %s", err.message);
+    }
     cfg.quantity = sp.electrical_hint ? SE_Q_VOLTAGE : SE_Q_VELOCITY;
     if (quantity != NULL && se_quantity_parse(quantity, &cfg.quantity, &err) != SE_OK)
         return se_cli_fail(SE_EXIT_USAGE, "--quantity: %s", err.message);
@@ -354,7 +365,7 @@ int se_cmd_locate(int argc, char **argv)
         ropt.max_bytes = (size_t)mem_mib << 20;
         rec = se_recording_read(path, &ropt, &err);
         if (rec == NULL && err.code == SE_ERR_NOMEM && pulse_channel > 0 && plot == NULL &&
-            report == NULL) {
+            report == NULL && cfg.skin_k_s05_per_m == 0.0) {
             stream = 1; /* larger than the limit: read it in blocks instead */
             if (!c.quiet)
                 fprintf(stderr, "strandecho: note: %s is over the %lu MiB memory limit: streaming it\n",
@@ -370,6 +381,13 @@ int se_cmd_locate(int argc, char **argv)
         if (pulse_channel == 0) {
             rc = se_cli_fail(SE_EXIT_USAGE, "streaming %s needs --pulse-channel (the reference must "
                                             "come from the recording itself)",
+                             path);
+            goto done;
+        }
+        if (cfg.skin_k_s05_per_m != 0.0) {
+            rc = se_cli_fail(SE_EXIT_USAGE, "--skin-loss needs the whole record (its templates "
+                                            "reach past the echoes): not available when "
+                                            "streaming %s",
                              path);
             goto done;
         }
@@ -592,6 +610,24 @@ static void se_print_table(const se_locate_result *res, const se_recording *rec,
         printf("attenuation estimated from a known reflector: %.4g dB/m (coefficients at the "
                "discontinuities have it removed)\n",
                res->attenuation_db_per_m);
+    if (res->skin_k_s05_per_m > 0.0 || res->skin_k_estimated) {
+        size_t ncorr = 0;
+        for (i = 0; i < res->n_events; i++)
+            ncorr += res->events[i].skin_corrected != 0;
+        if (res->skin_k_estimated)
+            printf("skin-effect loss estimated from %zu echoes: K = %.4g +/- %.2g s^0.5/m (%.3g dB "
+                   "per 100 m at 100 MHz, all taken as conductor loss)",
+                   res->skin_fit_echoes, res->skin_k_s05_per_m, res->skin_k_uncertainty,
+                   se_skin_loss_attenuation_db(res->skin_k_s05_per_m, 100.0, 1e8));
+        else
+            printf("skin-effect loss K = %.4g s^0.5/m (%.3g dB per 100 m at 100 MHz)",
+                   res->skin_k_s05_per_m,
+                   se_skin_loss_attenuation_db(res->skin_k_s05_per_m, 100.0, 1e8));
+        printf(": %zu echo%s matched with loss-shaped templates, %zu detection%s dropped as "
+               "pieces of a distorted echo\n",
+               ncorr, ncorr == 1 ? "" : "es", res->skin_explained,
+               res->skin_explained == 1 ? "" : "s");
+    }
     if (res->shots_found > 1 && res->shot_interval_s > 0.0)
         printf("the line rings for %.3g s after a tap; the taps are %.3g s apart%s\n",
                res->ring_down_s, res->shot_interval_s,

@@ -119,6 +119,12 @@ char *se_result_json(const se_locate_result *res, const se_run_info *info, se_er
     bad |= se_jset(root, "attenuation_uncertainty_db_per_m",
                    se_jnum(res->attenuation_uncertainty_db_per_m));
     bad |= se_jset(root, "attenuation_repeats", json_integer((json_int_t)res->attenuation_repeats));
+    bad |= se_jset(root, "skin_loss_s05_per_m",
+                   se_jnum(res->skin_k_s05_per_m != 0.0 ? res->skin_k_s05_per_m : NAN));
+    bad |= se_jset(root, "skin_loss_uncertainty", se_jnum(res->skin_k_uncertainty));
+    bad |= se_jset(root, "skin_loss_estimated", json_boolean(res->skin_k_estimated));
+    bad |= se_jset(root, "skin_fit_echoes", json_integer((json_int_t)res->skin_fit_echoes));
+    bad |= se_jset(root, "skin_explained", json_integer((json_int_t)res->skin_explained));
     bad |= se_jset(root, "ring_down_s", se_jnum(res->ring_down_s));
     bad |= se_jset(root, "shot_interval_s", se_jnum(res->shot_interval_s));
     bad |= se_jset(root, "shots_overlap", json_boolean(res->shots_overlap));
@@ -166,6 +172,8 @@ char *se_result_json(const se_locate_result *res, const se_run_info *info, se_er
         bad |= se_jset(e, "reflection_uncertainty", se_jnum(ev->reflection_uncertainty));
         bad |= se_jset(e, "reflection_at_discontinuity", se_jnum(ev->reflection_at_discontinuity));
         bad |= se_jset(e, "fitted", json_boolean(ev->fitted));
+        bad |= se_jset(e, "skin_corrected", json_boolean(ev->skin_corrected));
+        bad |= se_jset(e, "skin_shift_s", se_jnum(ev->skin_corrected ? ev->skin_shift_s : NAN));
         bad |= se_jset(e, "snr_db", se_jnum(ev->snr_db));
         bad |= se_jset(e, "low_confidence", json_boolean(ev->low_confidence));
         bad |= se_jset(e, "clipped", json_boolean(ev->clipped || res->direct_clipped));

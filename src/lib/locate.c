@@ -1,6 +1,7 @@
 /* strandecho: the locator pipeline. Reference -> matched filter -> time origin -> noise and
  * threshold -> dead zone -> CLEAN detection with band-limited refinement -> classification and
  * distances with uncertainties. */
+#include "strandecho/skin.h"
 #include "strandecho/locate.h"
 
 #include <float.h>
@@ -61,6 +62,11 @@ static se_status se_dead_zone_scan(const double *x, size_t n, const se_echo_mode
                                    se_locate_result *res, se_error *err);
 static se_status se_event_uncertainty(const se_distmap *map, double z, double sl, double sl0,
                                        double rate_hz, se_event *ev, se_error *err);
+static se_status se_locate_skin(const double *x, size_t n, const double *ref, size_t m,
+                                double rate_hz, double lag0, const se_locate_config *cfg,
+                                const se_distmap *map, double thr, se_peak *peaks, size_t *npeaks,
+                                double *skin_sd, double *plain_lag, se_locate_result *res,
+                                se_error *err);
 
 void se_locate_config_init(se_locate_config *cfg)
 {
@@ -76,6 +82,7 @@ void se_locate_config_init(se_locate_config *cfg)
     cfg->attenuation_db_per_m = NAN;
     cfg->fit_overlaps = 1;
     cfg->noise_tracking = 1;
+    cfg->skin_k_s05_per_m = 0.0;
 }
 
 void se_locate_result_free(se_locate_result *res)
@@ -311,7 +318,8 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
     double *lag_sd = NULL, *amp_sd = NULL;
     se_echo_model *mdl = NULL;
     se_noise_profile prof;
-    int varies = 0;
+    int varies = 0, skin = 0;
+    double *skin_sd = NULL, *plain_lag = NULL;
 
     memset(&prof, 0, sizeof prof);
     if (res == NULL)
@@ -346,6 +354,12 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
                        cfg->stacking);
     if (cfg->reference_kind != SE_REF_SELF && (cfg->reference == NULL || cfg->reference_length < 3))
         return se_fail(err, SE_ERR_ARG, "locate: the reference pulse has fewer than 3 samples");
+    if (!(cfg->skin_k_s05_per_m >= 0.0) && !isnan(cfg->skin_k_s05_per_m))
+        return se_fail(err, SE_ERR_RANGE, "locate: skin-effect loss %g s^0.5/m is negative",
+                       cfg->skin_k_s05_per_m);
+    if (isinf(cfg->skin_k_s05_per_m))
+        return se_fail(err, SE_ERR_RANGE, "locate: skin-effect loss is not finite");
+    skin = cfg->skin_k_s05_per_m != 0.0; /* NaN (estimate) included */
     if (n < 16)
         return se_fail(err, SE_ERR_DATA, "locate: the response has only %zu samples", n);
 
@@ -538,6 +552,10 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
     dc.end = end;
     dc.threshold = thr;
     dc.max_peaks = cfg->max_events ? cfg->max_events : 64;
+    /* a lossless matched filter splits each skin-distorted echo into several peaks: room for the
+     * pieces, which se_locate_skin drops before the cap is applied */
+    if (skin)
+        dc.max_peaks = dc.max_peaks * 4 < 1024 ? dc.max_peaks * 4 : 1024;
     dc.acf = acf;
     dc.known = &direct;
     dc.n_known = 1;
@@ -549,6 +567,27 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
     if (st != SE_OK)
         goto done;
 
+    /* Skin-effect loss: every detection matched with its own loss-shaped template (skin.h). */
+    if (skin && npeaks > 0) {
+        skin_sd = se_calloc(npeaks, sizeof *skin_sd, "skin-effect fit", err);
+        plain_lag = se_calloc(npeaks, sizeof *plain_lag, "skin-effect fit", err);
+        if (skin_sd == NULL || plain_lag == NULL) {
+            st = SE_ERR_NOMEM;
+            goto done;
+        }
+        st = se_locate_skin(x, n, ref, m, rate_hz, lag0, cfg, map, thr, peaks, &npeaks, skin_sd,
+                            plain_lag, res, err);
+        if (st != SE_OK)
+            goto done;
+        se_keep_largest(peaks, &npeaks, skin_sd, plain_lag, cfg->max_events ? cfg->max_events : 64);
+    } else if (skin) {
+        res->skin_k_s05_per_m = cfg->skin_k_s05_per_m;
+        res->skin_k_uncertainty = NAN;
+    } else {
+        res->skin_k_s05_per_m = NAN;
+        res->skin_k_uncertainty = NAN;
+    }
+
     /* Overlapping echoes: least squares on the response, started from CLEAN (fitecho.h). */
     if (m <= SE_FIT_MAX_PULSE && ((cfg->fit_overlaps && npeaks > 0) ||
                                   (cfg->reference_kind == SE_REF_CHANNEL && !res->noise_floored))) {
@@ -558,7 +597,7 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
             goto done;
         }
     }
-    if (mdl != NULL && cfg->fit_overlaps && npeaks > 0) {
+    if (mdl != NULL && cfg->fit_overlaps && npeaks > 0 && !skin) {
         st = se_refit_overlaps(x, n, mdl, res, &direct, res->noise_floored ? INFINITY : thr,
                                varies ? &prof : NULL, kthr, se_acf_mainlobe_half_width(acf),
                                &peaks, &npeaks, &lag_sd, &amp_sd, err);
@@ -612,6 +651,19 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
             if (st != SE_OK)
                 goto done;
         }
+        /* skin-corrected echoes carry the template fit's timing uncertainty */
+        for (i = 0; skin_sd != NULL && i < res->n_events && i < npeaks; i++) {
+            se_event *ev = &res->events[i];
+            double z = gsl_cdf_ugaussian_Pinv(0.5 + 0.5 * cfg->confidence);
+            if (!isfinite(skin_sd[i]))
+                continue;
+            ev->skin_corrected = 1;
+            ev->skin_shift_s = (plain_lag[i] - peaks[i].lag) / rate_hz;
+            st = se_event_uncertainty(map, z, skin_sd[i], sigma / (fabs(a0) * beta_crb), rate_hz, ev,
+                                      err);
+            if (st != SE_OK)
+                goto done;
+        }
     }
     res->source_reflection = lc.source_reflection;
     res->source_reflection_estimated = rs_unknown && rs_found;
@@ -638,6 +690,8 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
 
 done:
     se_noise_profile_free(&prof);
+    free(skin_sd);
+    free(plain_lag);
     free(peaks);
     free(lag_sd);
     free(amp_sd);
@@ -1861,5 +1915,89 @@ static se_status se_dead_zone_scan(const double *x, size_t n, const se_echo_mode
     }
     res->n_dead_zone_events = j;
     free(fit);
+    return SE_OK;
+}
+
+/* Skin-effect loss (skin.h): the detections peaks [size: *npeaks, lag order] are corrected in place
+ * with their loss-shaped templates, those explained by a stronger echo's loss tail dropped;
+ * skin_sd[i] gets the corrected echo's lag uncertainty (samples; NaN when not corrected) and
+ * plain_lag[i] its plain matched-filter lag, both [size: *npeaks], kept in step with peaks. The
+ * speed: cfg->speed_m_s, or with a distance map the mean over the round trip to the farthest
+ * detection. K and how it was found go to res. */
+static se_status se_locate_skin(const double *x, size_t n, const double *ref, size_t m,
+                                double rate_hz, double lag0, const se_locate_config *cfg,
+                                const se_distmap *map, double thr, se_peak *peaks, size_t *npeaks,
+                                double *skin_sd, double *plain_lag, se_locate_result *res,
+                                se_error *err)
+{
+    size_t np = *npeaks, i, out = 0;
+    se_skin_echo *ec;
+    se_skin_config sk;
+    se_skin_result sr;
+    se_status st;
+    double speed = cfg->speed_m_s;
+
+    if (cfg->map != NULL) {
+        double far = peaks[np - 1].lag, t = (far - lag0) / rate_hz, d;
+        st = t > 0.0 ? se_distmap_distance(map, t, &d, err)
+                     : se_distmap_speed(map, 0.0, &speed, err);
+        if (st != SE_OK)
+            return st;
+        if (t > 0.0)
+            speed = 2.0 * d / t;
+    }
+    ec = se_calloc(np, sizeof *ec, "skin-effect fit", err);
+    if (ec == NULL)
+        return SE_ERR_NOMEM;
+    for (i = 0; i < np; i++) {
+        ec[i].lag = peaks[i].lag;
+        ec[i].amplitude = peaks[i].amplitude;
+    }
+    se_skin_config_init(&sk);
+    sk.rate_hz = rate_hz;
+    sk.lag0 = lag0;
+    sk.speed_m_s = speed;
+    sk.k_s05_per_m = cfg->skin_k_s05_per_m;
+    sk.threshold = isfinite(thr) ? thr : 0.0;
+    memset(&sr, 0, sizeof sr);
+    st = se_skin_correct(x, n, ref, m, &sk, ec, np, &sr, err);
+    if (st != SE_OK) {
+        free(ec);
+        return st;
+    }
+    for (i = 0; i < np; i++) {
+        if (ec[i].explained) {
+            res->skin_explained++;
+            continue;
+        }
+        plain_lag[out] = ec[i].lag_plain;
+        skin_sd[out] = ec[i].corrected ? ec[i].lag_sd : NAN;
+        peaks[out] = peaks[i];
+        peaks[out].lag = ec[i].lag;
+        peaks[out].amplitude = ec[i].amplitude;
+        peaks[out].index = (size_t)floor(ec[i].lag + 0.5);
+        out++;
+    }
+    free(ec);
+    /* the corrected lags may have moved past each other: keep lag order */
+    for (i = 1; i < out; i++) {
+        size_t j = i;
+        while (j > 0 && peaks[j - 1].lag > peaks[j].lag) {
+            se_peak tp = peaks[j];
+            double ts = skin_sd[j], tl = plain_lag[j];
+            peaks[j] = peaks[j - 1];
+            skin_sd[j] = skin_sd[j - 1];
+            plain_lag[j] = plain_lag[j - 1];
+            peaks[j - 1] = tp;
+            skin_sd[j - 1] = ts;
+            plain_lag[j - 1] = tl;
+            j--;
+        }
+    }
+    *npeaks = out;
+    res->skin_k_s05_per_m = sr.k_s05_per_m;
+    res->skin_k_uncertainty = sr.estimated ? sr.k_sd : NAN;
+    res->skin_k_estimated = sr.estimated;
+    res->skin_fit_echoes = sr.fit_echoes;
     return SE_OK;
 }
