@@ -462,6 +462,77 @@ static void test_calibrate_feature(void)
     se_line_free(line);
 }
 
+/* Skin loss on a line: the length-weighted mean K, the exact round-trip loss to a distance, and
+ * the checks on a segment's K (line.h se_line_skin_loss, se_line_skin_path). */
+static void test_skin_loss(void)
+{
+    se_error err;
+    se_segment seg;
+    se_line *line, *mech;
+    double k = -1.0, a = -1.0;
+    se_error_clear(&err);
+    line = se_line_create("cable", SE_WAVE_ELECTRICAL, SE_Q_VOLTAGE, &err);
+    CHECK(line != NULL);
+    if (line == NULL)
+        return;
+    se_segment_init(&seg);
+    CHECK(seg.skin_loss_s05_per_m == 0.0);
+    seg.name = (char *)"thin";
+    seg.length_m = 100.0;
+    seg.velocity_factor = 0.66;
+    seg.impedance_given = 50.0;
+    seg.skin_loss_s05_per_m = 1e-6;
+    CHECK(se_line_add_segment(line, &seg, &err) == SE_OK);
+    seg.name = (char *)"thick";
+    seg.length_m = 300.0;
+    seg.skin_loss_s05_per_m = 4e-7;
+    CHECK(se_line_add_segment(line, &seg, &err) == SE_OK);
+    CHECK(se_line_set_end(line, "open", &err) == SE_OK);
+    CHECK(se_line_skin_loss(line, &k, &err) == SE_ERR_ARG && strstr(err.message, "prepared") != NULL);
+    CHECK(se_line_skin_path(line, 10.0, &a, NULL) == SE_ERR_ARG && a == -1.0);
+    CHECK(se_line_prepare(line, &err) == SE_OK);
+    /* (1e-6 x 100 + 4e-7 x 300) / 400 = 5.5e-7 s^0.5/m [calc] */
+    CHECK(se_line_skin_loss(line, &k, &err) == SE_OK);
+    CHECK_CLOSE(k, 5.5e-7, 1e-20, "length-weighted mean K");
+    /* round trip: a = 2 x integral of K: 2 x 1e-6 x 50; 2 (1e-4 + 4e-7 x 150); 2 x 2.2e-4 [calc] */
+    CHECK(se_line_skin_path(line, 50.0, &a, &err) == SE_OK);
+    CHECK_CLOSE(a, 1e-4, 1e-18, "a to 50 m");
+    CHECK(se_line_skin_path(line, 250.0, &a, &err) == SE_OK);
+    CHECK_CLOSE(a, 3.2e-4, 1e-18, "a to 250 m");
+    CHECK(se_line_skin_path(line, 400.0, &a, &err) == SE_OK);
+    CHECK_CLOSE(a, 4.4e-4, 1e-18, "a to the end");
+    /* the mean K over the whole length gives the far end's loss exactly */
+    CHECK_CLOSE(a, 2.0 * k * line->length_m, 1e-18, "mean K exact at the far end");
+    CHECK(se_line_skin_path(line, 0.0, &a, &err) == SE_OK && a == 0.0);
+    CHECK(se_line_skin_path(line, 400.1, &a, &err) == SE_ERR_RANGE && strstr(err.message, "400.1") != NULL);
+    CHECK(se_line_skin_path(line, -1.0, &a, &err) == SE_ERR_RANGE);
+    CHECK(se_line_skin_path(line, NAN, &a, &err) == SE_ERR_RANGE);
+    CHECK(se_line_skin_loss(NULL, &k, &err) == SE_ERR_ARG);
+    CHECK(se_line_skin_loss(line, NULL, &err) == SE_ERR_ARG);
+    /* a negative or absurd K is refused when the line is prepared */
+    line->segments[1].skin_loss_s05_per_m = -1e-7;
+    CHECK(se_line_prepare(line, &err) == SE_ERR_RANGE && strstr(err.message, "segment 'thick'") != NULL &&
+          strstr(err.message, "skin_loss") != NULL);
+    line->segments[1].skin_loss_s05_per_m = NAN;
+    CHECK(se_line_prepare(line, &err) == SE_ERR_RANGE);
+    line->segments[1].skin_loss_s05_per_m = 0.0;
+    line->segments[0].skin_loss_s05_per_m = 0.0;
+    CHECK(se_line_prepare(line, &err) == SE_OK);
+    CHECK(se_line_skin_loss(line, &k, &err) == SE_OK && k == 0.0);
+    se_line_free(line);
+
+    /* a mechanical line has no skin loss */
+    mech = one_segment(SE_WAVE_TRANSVERSE, SE_Q_VELOCITY, 100.0, 10.0, 1e4, NAN, NAN, "fixed");
+    CHECK(mech != NULL);
+    if (mech != NULL) {
+        CHECK(se_line_skin_loss(mech, &k, &err) == SE_OK && k == 0.0);
+        mech->segments[0].skin_loss_s05_per_m = 4e-7;
+        CHECK(se_line_prepare(mech, &err) == SE_ERR_ARG &&
+              strstr(err.message, "skin_loss applies to electrical segments") != NULL);
+        se_line_free(mech);
+    }
+}
+
 int main(void)
 {
     gsl_set_error_handler_off();
@@ -474,5 +545,6 @@ int main(void)
     test_calibration();
     test_hanging_options();
     test_calibrate_feature();
+    test_skin_loss();
     return se_test_done("test_line");
 }

@@ -11,6 +11,9 @@
 #include "testutil.h"
 
 #define HEAD "line: test\nwave: transverse\nquantity: velocity\n"
+/* an electrical segment, its skin_loss on line 7 at column 16 */
+#define E_SEG "wave: electrical\nquantity: voltage\nsegments:\n  - name: a\n    length: 5 m\n" \
+              "    velocity_factor: 0.66\n"
 #define SEG_A "segments:\n  - name: a\n    length: 100 m\n    mass_per_length: 10 kg/m\n"
 
 typedef struct bad_case {
@@ -99,6 +102,27 @@ static const bad_case bad_cases[] = {
      SE_ERR_RANGE, "t.yaml:5:5:", "below the vertical load"},
     {"segments not a list", HEAD "segments: 3\nend: fixed\n", SE_ERR_FORMAT, "t.yaml:4:11:",
      "segments must be a non-empty list"},
+    {"skin_loss on a transverse segment", HEAD SEG_A "    tension: 1 kN\n    skin_loss: 4e-7\nend: fixed\n",
+     SE_ERR_ARG, "t.yaml:9:16:", "skin_loss applies to electrical segments (a cable), not to a transverse line"},
+    {"skin_loss on a longitudinal segment", "wave: longitudinal\nquantity: force\n" SEG_A
+                                            "    axial_stiffness: 100 MN\n    skin_loss: 4e-7\nend: fixed\n",
+     SE_ERR_ARG, "t.yaml:8:16:", "not to a longitudinal line"},
+    {"skin_loss without frequency", E_SEG "    skin_loss: 6.6 dB/100 m\nend: open\n", SE_ERR_ARG,
+     "t.yaml:7:16:", "skin_loss: skin loss '6.6 dB/100 m': missing frequency"},
+    {"skin_loss with an unknown length unit", E_SEG "    skin_loss: 6.6 dB/100 fathom @ 100 MHz\nend: open\n",
+     SE_ERR_UNIT, "t.yaml:7:16:", "the length: unknown unit 'fathom'"},
+    {"skin_loss with a frequency without unit", E_SEG "    skin_loss: 6.6 dB/100 m @ 100\nend: open\n",
+     SE_ERR_UNIT, "t.yaml:7:16:", "missing unit for a frequency"},
+    {"negative skin_loss", E_SEG "    skin_loss: -4e-7 s^0.5/m\nend: open\n", SE_ERR_RANGE, "t.yaml:7:16:",
+     "is negative"},
+    {"skin_loss a bare datasheet number", E_SEG "    skin_loss: 6.6\nend: open\n", SE_ERR_RANGE, "t.yaml:7:16:",
+     "above 1"},
+    {"skin_loss not finite", E_SEG "    skin_loss: .nan\nend: open\n", SE_ERR_ARG, "t.yaml:7:16:",
+     "not a number"},
+    {"skin_loss missing value", E_SEG "    skin_loss:\nend: open\n", SE_ERR_FORMAT, "t.yaml:7:",
+     "skin_loss: missing value"},
+    {"skin_loss unknown key suggestion", E_SEG "    skin_los: 4e-7\nend: open\n", SE_ERR_FORMAT, "t.yaml:7:5:",
+     "did you mean 'skin_loss'?"},
     {"empty file", "", SE_ERR_FORMAT, "t.yaml:", "empty line file"},
 };
 
@@ -140,9 +164,10 @@ static void test_fixtures(void)
     se_line *guy = read_fixture("fixtures/lines/guy-wire-us.yaml");
     se_line *tether = read_fixture("fixtures/lines/tether-plover.yaml");
     se_line *cable = read_fixture("fixtures/lines/buried-cable.yaml");
+    se_line *coax = read_fixture("fixtures/lines/coax-feeder-skin.yaml");
     se_expected_event *ev = NULL;
     size_t n = 0;
-    CHECK(leg != NULL && axial != NULL && guy != NULL && tether != NULL && cable != NULL);
+    CHECK(leg != NULL && axial != NULL && guy != NULL && tether != NULL && cable != NULL && coax != NULL);
     if (leg != NULL) {
         CHECK(strcmp(leg->name, "Leg 3, Kestrel Bank test buoy") == 0);
         CHECK(leg->n_segments == 3 && leg->wave == SE_WAVE_TRANSVERSE && leg->quantity == SE_Q_VELOCITY);
@@ -198,6 +223,32 @@ static void test_fixtures(void)
         }
         free(ev);
     }
+    if (cable != NULL) {
+        double k = -1.0;
+        CHECK(se_line_skin_loss(cable, &k, NULL) == SE_OK && k == 0.0); /* no skin_loss: none */
+    }
+    if (coax != NULL) {
+        /* K = alpha_dB / (20 log10(e) sqrt(pi f)) per metre: 1 Np = 20 log10(e) dB (ISO 80000-3,
+         * NIST SP 811 [pub]), 1 ft = 0.3048 m (NIST SP 811 B.8 [pub]) [calc] */
+        const double c = 20.0 / log(10.0), pi = 3.14159265358979323846;
+        const double k1 = 4.6 / c / (100.0 * 0.3048) / sqrt(pi * 1e7), k2 = 6.6 / c / 100.0 / sqrt(pi * 1e8);
+        double k = -1.0, a = -1.0;
+        CHECK(coax->n_segments == 3);
+        if (coax->n_segments == 3) {
+            CHECK_CLOSE(coax->segments[0].skin_loss_s05_per_m, k1, 1e-15 * k1, "4.6 dB/100 ft @ 10 MHz");
+            CHECK_CLOSE(coax->segments[1].skin_loss_s05_per_m, k2, 1e-15 * k2, "6.6 dB/100 m at 100 MHz");
+            CHECK(coax->segments[2].skin_loss_s05_per_m == 4.3e-7);
+            /* the values the fixture's comment states */
+            CHECK_CLOSE(k1, 3.100e-6, 5e-10, "fixture comment: jumper K");
+            CHECK_CLOSE(k2, 4.287e-7, 5e-11, "fixture comment: main run K");
+            CHECK(se_line_skin_loss(coax, &k, NULL) == SE_OK);
+            CHECK_CLOSE(k, (3.0 * k1 + 120.0 * k2 + 9.0 * 4.3e-7) / 132.0, 1e-15 * k, "length-weighted K");
+            CHECK_CLOSE(k, 4.895e-7, 5e-11, "fixture comment: line K");
+            CHECK(se_line_skin_path(coax, 63.0, &a, NULL) == SE_OK);
+            CHECK_CLOSE(a, 2.0 * (3.0 * k1 + 60.0 * k2), 1e-15 * a, "loss to the connector and back");
+        }
+    }
+    se_line_free(coax);
     se_line_free(leg);
     se_line_free(axial);
     se_line_free(guy);

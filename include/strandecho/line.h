@@ -90,6 +90,10 @@ typedef struct se_segment {
     double diameter_m;             /* hydrodynamic diameter D (m) for added mass in water, or NAN (in air) */
     double water_density_kg_m3;    /* rho_w (kg/m^3), default 1025 (seawater) */
     double added_mass_coefficient; /* C_a, default 1 (Bureau Veritas NR493) */
+    double skin_loss_s05_per_m;    /* skin-effect loss K (s^0.5/m) of an electrical segment (skin.h:
+                                      H(s) = exp(-K l sqrt(s))), 0 <= K <= SE_SKIN_LOSS_MAX (units.h);
+                                      0 = none (the default, and the only value on a mechanical line).
+                                      File key skin_loss: K or a datasheet figure (se_skin_loss_parse) */
     se_hanging hanging;
     se_feature *features;          /* owned [size: n_features], sorted by at_m by se_line_prepare */
     size_t n_features;
@@ -197,7 +201,8 @@ void se_line_free(se_line *line);
 /* Programmatic construction. An empty line: source end "continuing" (0), far end unset (set it
  * with se_line_set_end before se_line_prepare). name may be NULL. Free with se_line_free. */
 se_line *se_line_create(const char *name, se_wave_kind wave, se_quantity quantity, se_error *err);
-/* Fill a segment with defaults: every value NAN, uncertainty 0, scale 1, rho_w 1025, C_a 1. */
+/* Fill a segment with defaults: every value NAN, uncertainty 0, scale 1, rho_w 1025, C_a 1,
+ * skin loss 0. */
 void se_segment_init(se_segment *seg);
 /* Append a deep copy of seg (name and features copied); derived fields ignored. */
 se_status se_line_add_segment(se_line *line, const se_segment *seg, se_error *err);
@@ -248,6 +253,25 @@ se_status se_line_calibrated_value(const se_line *line, size_t segment, double k
 
 /* Apply a scale k to segment i (or all) in place: multiplies speed_scale and re-prepares. */
 se_status se_line_apply_scale(se_line *line, size_t segment, double k, se_error *err);
+
+/* The ONE skin-loss constant for a locator or simulator that takes one K and one speed (skin.h
+ * se_skin_config.k_s05_per_m): the length-weighted mean over the segments,
+ *     K = sum_i K_i l_i / sum_i l_i   (s^0.5/m; 0 when no segment has a skin_loss).
+ * Loss adds along the path (the H of segments in series multiply: exp(-sqrt(s) sum K_i l_i)), so
+ * with the line's mean speed v = length_m / (round_trip_s / 2) as the one speed, this K gives the
+ * far end's echo exactly its loss a = 2 sum K_i l_i; an echo at distance d gets
+ * K 2 d instead of se_line_skin_path(d), exact where every segment has the same K.
+ *   line         prepared (se_line_prepare); borrowed
+ *   k_s05_per_m  [out] K, s^0.5/m; untouched on failure
+ * Returns SE_OK or SE_ERR_ARG (NULL or not prepared). */
+se_status se_line_skin_loss(const se_line *line, double *k_s05_per_m, se_error *err);
+
+/* The exact skin loss of the round trip to distance_m and back, a = 2 integral_0^d K(x) dx
+ * (s^0.5), the a of skin.h for an echo from d (segment by segment, unstretched lengths).
+ *   distance_m   0 <= d <= line->length_m (a rounding excess of 1e-9 relative is clamped)
+ *   a_sqrt_s     [out] a, s^0.5; untouched on failure
+ * Returns SE_OK, SE_ERR_ARG (NULL or not prepared) or SE_ERR_RANGE (d outside the line). */
+se_status se_line_skin_path(const se_line *line, double distance_m, double *a_sqrt_s, se_error *err);
 
 #ifdef __cplusplus
 }

@@ -7,6 +7,7 @@
 
 #include "internal.h"
 #include "strandecho/line.h"
+#include "strandecho/units.h"
 
 /* Nodes of a hanging transverse segment in the distance map: the suspended part is sampled with
  * quadratic spacing from its lower end (cubic at a free end, where t ~ sqrt(s)), the seabed part
@@ -91,6 +92,7 @@ void se_segment_init(se_segment *seg)
     seg->diameter_m = NAN;
     seg->water_density_kg_m3 = SE_SEAWATER_DENSITY;
     seg->added_mass_coefficient = SE_ADDED_MASS_COEFFICIENT;
+    seg->skin_loss_s05_per_m = 0.0;
     seg->hanging.weight_in_water_n_m = NAN;
     seg->hanging.top_tension_n = NAN;
     seg->hanging.horizontal_tension_n = NAN;
@@ -418,6 +420,12 @@ static se_status se_line_prepare_segment(se_line *line, size_t i, se_error *err)
         SE_SEGFAIL(SE_ERR_RANGE, "water_density must be positive (got %g kg/m3)", seg->water_density_kg_m3);
     if (!(seg->added_mass_coefficient >= 0.0))
         SE_SEGFAIL(SE_ERR_RANGE, "added_mass_coefficient must be >= 0 (got %g)", seg->added_mass_coefficient);
+    if (!(seg->skin_loss_s05_per_m >= 0.0 && seg->skin_loss_s05_per_m <= SE_SKIN_LOSS_MAX))
+        SE_SEGFAIL(SE_ERR_RANGE, "skin_loss K = %g s^0.5/m must be in [0, %g]", seg->skin_loss_s05_per_m,
+                   SE_SKIN_LOSS_MAX);
+    if (seg->skin_loss_s05_per_m > 0.0 && line->wave != SE_WAVE_ELECTRICAL)
+        SE_SEGFAIL(SE_ERR_ARG, "skin_loss applies to electrical segments (a cable), not to a %s line",
+                   se_wave_kind_name(line->wave));
 
     switch (line->wave) {
     case SE_WAVE_TRANSVERSE:
@@ -974,4 +982,42 @@ se_status se_line_apply_scale(se_line *line, size_t segment, double k, se_error 
         if (segment == SE_LINE_ALL_SEGMENTS || i == segment)
             line->segments[i].speed_scale *= k;
     return se_line_prepare(line, err);
+}
+
+se_status se_line_skin_loss(const se_line *line, double *k_s05_per_m, se_error *err)
+{
+    double kl = 0.0, l = 0.0;
+    size_t i;
+    if (line == NULL || k_s05_per_m == NULL)
+        return se_fail(err, SE_ERR_ARG, "line: NULL argument to se_line_skin_loss");
+    if (!line->prepared)
+        return se_fail(err, SE_ERR_ARG, "%s: se_line_skin_loss needs a prepared line", se_line_src(line));
+    for (i = 0; i < line->n_segments; i++) {
+        kl += line->segments[i].skin_loss_s05_per_m * line->segments[i].length_m;
+        l += line->segments[i].length_m;
+    }
+    /* K_mean = sum K_i l_i / sum l_i: the far end's loss is exact (losses add along the path) */
+    *k_s05_per_m = l > 0.0 ? kl / l : 0.0;
+    return SE_OK;
+}
+
+se_status se_line_skin_path(const se_line *line, double distance_m, double *a_sqrt_s, se_error *err)
+{
+    double a = 0.0, d = distance_m;
+    size_t i;
+    if (line == NULL || a_sqrt_s == NULL)
+        return se_fail(err, SE_ERR_ARG, "line: NULL argument to se_line_skin_path");
+    if (!line->prepared)
+        return se_fail(err, SE_ERR_ARG, "%s: se_line_skin_path needs a prepared line", se_line_src(line));
+    if (!(d >= 0.0) || !(d <= line->length_m * (1.0 + 1e-9)))
+        return se_fail(err, SE_ERR_RANGE, "%s: distance %g m is outside the line (0 to %g m)", se_line_src(line),
+                       distance_m, line->length_m);
+    for (i = 0; i < line->n_segments && d > 0.0; i++) {
+        const se_segment *seg = &line->segments[i];
+        double part = d < seg->length_m ? d : seg->length_m;
+        a += seg->skin_loss_s05_per_m * part;
+        d -= part;
+    }
+    *a_sqrt_s = 2.0 * a; /* round trip */
+    return SE_OK;
 }

@@ -24,7 +24,7 @@ static const char *const se_lp_top_keys[] = {"line", "wave", "quantity", "source
 static const char *const se_lp_segment_keys[] = {
     "name", "length", "mass_per_length", "tension", "axial_stiffness", "speed", "velocity_factor",
     "impedance", "speed_uncertainty", "speed_scale", "diameter", "water_density", "added_mass_coefficient",
-    "hanging", "features", "notes", NULL};
+    "skin_loss", "hanging", "features", "notes", NULL};
 static const char *const se_lp_hanging_keys[] = {"weight_in_water", "top_tension", "horizontal_tension",
                                                  "lower_vertical_force", "on_seabed", "depth", "seabed_friction",
                                                  "axial_stiffness", "lower_end", NULL};
@@ -43,6 +43,7 @@ static se_status se_lp_percent(const se_lp *p, const yaml_node_t *map, const cha
 static se_status se_lp_number(const se_lp *p, const yaml_node_t *map, const char *key, double *out);
 static se_status se_lp_segment(const se_lp *p, se_line *line, const yaml_node_t *map, size_t index,
                                double default_rho, double default_unc);
+static se_status se_lp_skin_loss(const se_lp *p, const se_line *line, const yaml_node_t *map, double *out);
 static se_status se_lp_hanging(const se_lp *p, const yaml_node_t *map, se_segment *seg);
 static se_status se_lp_feature(const se_lp *p, const yaml_node_t *map, se_feature *f);
 static se_line *se_lp_document(const se_lp *p);
@@ -225,6 +226,32 @@ static se_status se_lp_number(const se_lp *p, const yaml_node_t *map, const char
     return SE_OK;
 }
 
+/* Optional skin_loss of a segment (K in s^0.5/m or a datasheet attenuation, se_skin_loss_parse);
+ * only an electrical line has one. Untouched if absent. */
+static se_status se_lp_skin_loss(const se_lp *p, const se_line *line, const yaml_node_t *map, double *out)
+{
+    const yaml_node_t *node = se_lp_get(p, map, "skin_loss");
+    const char *text;
+    se_error uerr;
+    double k;
+    se_status st;
+    if (node == NULL)
+        return SE_OK;
+    if (line->wave != SE_WAVE_ELECTRICAL)
+        return se_lp_fail(p, node, SE_ERR_ARG,
+                          "skin_loss applies to electrical segments (a cable), not to a %s line",
+                          se_wave_kind_name(line->wave));
+    st = se_lp_scalar(p, node, "skin_loss", &text);
+    if (st != SE_OK)
+        return st;
+    se_error_clear(&uerr);
+    st = se_skin_loss_parse(text, &k, &uerr);
+    if (st != SE_OK)
+        return se_lp_fail(p, node, st, "skin_loss: %s", uerr.message);
+    *out = k;
+    return SE_OK;
+}
+
 static se_status se_lp_feature(const se_lp *p, const yaml_node_t *map, se_feature *f)
 {
     const yaml_node_t *at, *node;
@@ -345,7 +372,8 @@ static se_status se_lp_segment(const se_lp *p, se_line *line, const yaml_node_t 
         (st = se_lp_percent(p, map, "speed_uncertainty", &seg.speed_uncertainty)) ||
         (st = se_lp_number(p, map, "velocity_factor", &seg.velocity_factor)) ||
         (st = se_lp_number(p, map, "speed_scale", &seg.speed_scale)) ||
-        (st = se_lp_number(p, map, "added_mass_coefficient", &seg.added_mass_coefficient)))
+        (st = se_lp_number(p, map, "added_mass_coefficient", &seg.added_mass_coefficient)) ||
+        (st = se_lp_skin_loss(p, line, map, &seg.skin_loss_s05_per_m)))
         return st;
     if (!isnan(seg.speed_given_m_s) && seg.speed_given_m_s > SE_SPEED_OF_LIGHT)
         return se_lp_fail(p, se_lp_get(p, map, "speed"), SE_ERR_RANGE,
