@@ -210,6 +210,71 @@ static void test_skin_loss(void)
     CHECK(se_skin_loss_from_attenuation(1.0, 100.0, NAN, &k, NULL) == SE_ERR_RANGE);
 }
 
+/* 1 if the two files have the same bytes (both readable). */
+static int same_file(const char *a, const char *b)
+{
+    FILE *fa = fopen(a, "rb"), *fb = fopen(b, "rb");
+    int same = fa != NULL && fb != NULL, ca, cb;
+    while (same) {
+        ca = getc(fa);
+        cb = getc(fb);
+        if (ca != cb)
+            same = 0;
+        if (ca == EOF || cb == EOF)
+            break;
+    }
+    if (fa != NULL)
+        fclose(fa);
+    if (fb != NULL)
+        fclose(fb);
+    return same;
+}
+
+/* simulate --skin-loss takes both forms through se_skin_loss_parse; --line takes the file's. */
+static void test_skin_loss_cli(void)
+{
+    char cmd[4096], out[8192], a[1024], b[1024], line[1024], ktext[64];
+    const char *cli = se_test_cli();
+    const char *sim = "simulate --pulse gauss:4ns --rate 1GHz --duration 2us --quiet";
+    double k = skin_k("6.6 dB/100m@100MHz");
+    if (getenv("SE_CLI") == NULL || cli == NULL || cli[0] == '\0') {
+        printf("SE_CLI not set (run under ctest): the simulate --skin-loss checks are skipped\n");
+        return;
+    }
+    se_test_binary_path(a, sizeof a, "tests/units_skin_a.csv");
+    se_test_binary_path(b, sizeof b, "tests/units_skin_b.csv");
+    se_test_source_path(line, sizeof line, "fixtures/lines/coax-feeder-skin.yaml");
+    snprintf(ktext, sizeof ktext, "%.17g", k);
+    snprintf(cmd, sizeof cmd, "'%s' %s --velocity-factor 0.66 --reflector 150m:0.5 "
+             "--skin-loss '6.6 dB/100 m at 100 MHz' -o '%s'", cli, sim, a);
+    CHECK(se_test_run(cmd, out, sizeof out) == 0);
+    snprintf(cmd, sizeof cmd, "'%s' %s --velocity-factor 0.66 --reflector 150m:0.5 --skin-loss %s -o '%s'",
+             cli, sim, ktext, b);
+    CHECK(se_test_run(cmd, out, sizeof out) == 0);
+    CHECK(same_file(a, b)); /* the datasheet form is exactly its K */
+    snprintf(cmd, sizeof cmd, "'%s' %s --velocity-factor 0.66 --reflector 150m:0.5 --skin-loss 0 -o '%s'",
+             cli, sim, b);
+    CHECK(se_test_run(cmd, out, sizeof out) == 0);
+    CHECK(!same_file(a, b)); /* and it does something */
+    snprintf(cmd, sizeof cmd, "'%s' %s --velocity-factor 0.66 --skin-loss '6.6 dB/100m' -o '%s' 2>&1", cli,
+             sim, b);
+    CHECK(se_test_run(cmd, out, sizeof out) == 2);
+    CHECK(strstr(out, "--skin-loss: skin loss '6.6 dB/100m': missing frequency") != NULL);
+    snprintf(cmd, sizeof cmd, "'%s' %s --velocity-factor 0.66 --skin-loss '6.6 dB/100 yard @ 1 MHz' -o '%s' 2>&1",
+             cli, sim, b);
+    CHECK(se_test_run(cmd, out, sizeof out) == 2 && strstr(out, "unknown unit 'yard'") != NULL);
+    /* the line file's skin_loss is used without --skin-loss, and --skin-loss 0 overrides it */
+    snprintf(cmd, sizeof cmd, "'%s' %s --line '%s' -o '%s'", cli, sim, line, a);
+    CHECK(se_test_run(cmd, out, sizeof out) == 0);
+    snprintf(cmd, sizeof cmd, "'%s' %s --line '%s' --skin-loss 0 -o '%s'", cli, sim, line, b);
+    CHECK(se_test_run(cmd, out, sizeof out) == 0);
+    CHECK(!same_file(a, b));
+    snprintf(cmd, sizeof cmd, "'%s' %s --line '%s' --model fd -o '%s' 2>&1", cli, sim, line, b);
+    CHECK(se_test_run(cmd, out, sizeof out) == 2 && strstr(out, "line file's skin_loss") != NULL);
+    remove(a);
+    remove(b);
+}
+
 int main(void)
 {
     /* NIST SP 811 (2008), appendix B.8. "E" in the source column: exact by definition. */
@@ -406,5 +471,6 @@ int main(void)
     CHECK(se_unit_factor(SE_UNIT_LENGTH, "furlong", &v, NULL) == SE_ERR_UNIT);
 
     test_skin_loss();
+    test_skin_loss_cli();
     return se_test_done("test_units");
 }

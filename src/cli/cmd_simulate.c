@@ -41,10 +41,13 @@ static const char se_simulate_usage[] =
     "  --quantity Q             what the sensor records (sign rule for named terminations;\n"
     "                           default velocity, voltage with --velocity-factor)\n"
     "  --loss DB_PER_M          attenuation, dB per metre of travel (default 0)\n"
-    "  --skin-loss K            skin-effect loss of a cable, K in s^0.5/m (default 0): each\n"
-    "                           arrival is shaped by H(s) = exp(-K l sqrt(s)), l its path length\n"
-    "                           (speed x arrival time), magnitude and causal phase; lattice\n"
-    "                           model, uniform speed (with --line: the first segment's)\n"
+    "  --skin-loss K            skin-effect loss of a cable, K in s^0.5/m ('4e-7') or from a\n"
+    "                           datasheet ('6.6 dB/100m@100MHz', '2 dB/100 ft at 10 MHz'; all\n"
+    "                           of it taken as skin loss: quote the lowest frequency near the\n"
+    "                           pulse's band); default 0, or the --line file's skin_loss (mean\n"
+    "                           K, exact at the far end). Each arrival is shaped by H(s) =\n"
+    "                           exp(-K l sqrt(s)), l = speed x arrival time (with --line the\n"
+    "                           first segment's speed); lattice model\n"
     "  --noise RMS              Gaussian noise, RMS relative to the pulse peak (default 0)\n"
     "  --seed N                 noise seed (default 1)\n"
     "  --pulse-start T          injection time (default twice the pulse length)\n"
@@ -462,6 +465,7 @@ int se_cmd_simulate(int argc, char **argv)
     size_t nrefl = 0, frames, i;
     double loss = 0.0, noise = 0.0, gain = 0.5, seed = 1.0, shots = 1.0, interval_s = 0.0;
     double skin = 0.0;
+    const char *skin_text = NULL;
     const char *interval = NULL;
     se_sim_reflector refl[SE_MAX_REFLECTORS];
     se_sim_interface *ifs = NULL;
@@ -544,8 +548,9 @@ int se_cmd_simulate(int argc, char **argv)
             continue;
         }
         if ((got = se_cli_value(&c, "--skin-loss", &v)) != 0) {
-            if (got < 0 || se_parse_number("--skin-loss", v, 0.0, 1.0, &skin) != 0)
+            if (got < 0)
                 return SE_EXIT_USAGE;
+            skin_text = v;
             continue;
         }
         if ((got = se_cli_value(&c, "--noise", &v)) != 0) {
@@ -603,11 +608,24 @@ int se_cmd_simulate(int argc, char **argv)
     q = sp.electrical_hint ? SE_Q_VOLTAGE : SE_Q_VELOCITY;
     if (quantity != NULL && se_quantity_parse(quantity, &q, &err) != SE_OK)
         return se_cli_fail(SE_EXIT_USAGE, "--quantity: %s", err.message);
+    if (skin_text != NULL && se_skin_loss_parse(skin_text, &skin, &err) != SE_OK)
+        return se_cli_fail(SE_EXIT_USAGE, "--skin-loss: %s", err.message);
     if (line_path != NULL) {
         ln = se_line_read(line_path, &err);
         if (ln == NULL)
             return se_cli_fail_err(&err, 0);
         q = ln->quantity;
+        if (skin_text == NULL) {
+            /* one K for the line (line.h): a = K v t with the first segment's speed v, so scale
+             * the mean K by mean speed / v to give the far end's echo a = 2 sum K_i l_i */
+            double kmean = 0.0;
+            if (se_line_skin_loss(ln, &kmean, &err) != SE_OK) {
+                se_line_free(ln);
+                return se_cli_fail_err(&err, 0);
+            }
+            if (kmean > 0.0)
+                skin = kmean * (ln->length_m / (0.5 * ln->round_trip_s)) / ln->segments[0].speed_near_m_s;
+        }
     }
     if (se_pulse_parse(pulse, &rec.pulse, &err) != SE_OK)
         return se_cli_fail(SE_EXIT_USAGE, "--pulse: %s", err.message);
@@ -627,7 +645,9 @@ int se_cmd_simulate(int argc, char **argv)
     if (fd && shots > 1.0)
         return se_cli_fail(SE_EXIT_USAGE, "--shots goes with the lattice model (drop --model fd)");
     if (fd && skin > 0.0)
-        return se_cli_fail(SE_EXIT_USAGE, "--skin-loss goes with the lattice model (drop --model fd)");
+        return se_cli_fail(SE_EXIT_USAGE, "%s goes with the lattice model (drop --model fd%s)",
+                           skin_text != NULL ? "--skin-loss" : "the line file's skin_loss",
+                           skin_text != NULL ? "" : ", or give --skin-loss 0");
     if (fd) {
         rec.noise_rms = noise;
         rec.seed = (unsigned long)seed;
