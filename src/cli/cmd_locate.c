@@ -23,6 +23,9 @@
 #include "strandecho/report.h"
 #include "strandecho/units.h"
 
+/* Multiples listed in the terminal table without --verbose; more are counted, not listed. */
+#define SE_TABLE_MULTIPLES 8
+
 static const char se_locate_usage[] =
     "usage: strandecho locate RECORDING [options]\n"
     "\n"
@@ -522,7 +525,8 @@ static void se_print_table(const se_locate_result *res, const se_recording *rec,
 {
     const double k = feet ? 1.0 / 0.3048 : 1.0;
     const char *u = feet ? "ft" : "m";
-    size_t i;
+    size_t i, nmult = 0, nprev = 0;
+    int fold;
     printf("strandecho %s  %s  (%s, %.10g Hz, %u channel%s, %.6g s), response channel %u\n",
            se_version(), rec->path, rec->format, rec->rate, rec->channels,
            rec->channels == 1 ? "" : "s", (double)rec->frames / rec->rate, ch);
@@ -538,9 +542,20 @@ static void se_print_table(const se_locate_result *res, const se_recording *rec,
     printf(" #  distance (%s)  +/- (%s, %.0f %%)  delay (ms)  polarity  impedance  class       "
            "reflection  SNR (dB)%s\n",
            u, u, conf * 100.0, line != NULL ? "  expected" : "");
+    /* A ringing line gives many more multiples than reflectors: past a handful the table lists
+     * the reflections only (as a surveyor describes the line) and counts the rest; --verbose,
+     * the JSON and the CSV have every event. */
+    for (i = 0; i < res->n_events; i++)
+        if (res->events[i].multiple) {
+            nmult++;
+            nprev += res->events[i].previous_shot > 0;
+        }
+    fold = !verbose && nmult > SE_TABLE_MULTIPLES;
     for (i = 0; i < res->n_events; i++) {
         const se_event *ev = &res->events[i];
         char note[160] = "";
+        if (fold && ev->multiple)
+            continue;
         if (line != NULL) {
             if (ev->expected >= 0)
                 snprintf(note, sizeof note, "  %s", exp[ev->expected].name);
@@ -563,6 +578,13 @@ static void se_print_table(const se_locate_result *res, const se_recording *rec,
     }
     if (res->n_events == 0)
         printf("    no reflection above the threshold\n");
+    if (fold) {
+        printf("    and %zu multiples", nmult);
+        if (nprev > 0)
+            printf(" (%zu of them echoes of earlier taps)", nprev);
+        printf(", not listed: reverberation explained by the reflections above, not faults "
+               "(--verbose lists them; the JSON and CSV hold every event)\n");
+    }
     for (i = 0; line != NULL && i < res->n_expected; i++) {
         const se_expected_event *x = &exp[i];
         if (res->expected_found[i] >= 0)
