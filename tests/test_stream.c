@@ -420,6 +420,12 @@ static void test_refusals(void)
     sc.pulse_channel = 0; /* the response channel itself */
     CHECK(se_locate_stream(path, &cfg, &sc, &str, NULL, &err) == SE_ERR_ARG);
     sc.pulse_channel = 1;
+    cfg.skin_k_s05_per_m = 1e-6; /* skin-effect loss: whole-record templates, refused */
+    CHECK(se_locate_stream(path, &cfg, &sc, &str, NULL, &err) == SE_ERR_ARG);
+    CHECK(strstr(err.message, "skin-effect") != NULL);
+    cfg.skin_k_s05_per_m = NAN;
+    CHECK(se_locate_stream(path, &cfg, &sc, &str, NULL, &err) == SE_ERR_ARG);
+    cfg.skin_k_s05_per_m = 0.0;
     sc.threads = 3;
     CHECK(se_locate_stream(path, &cfg, &sc, &str, NULL, &err) == SE_ERR_ARG);
     sc.threads = 1;

@@ -81,8 +81,9 @@ void se_stream_config_init(se_stream_config *scfg);
  *  path : any file libsndfile reads (borrowed); text tables are not streamed (SE_ERR_FORMAT)
  *  cfg  : as for se_locate, except that the reference must be given (SE_REF_CHANNEL with its offset,
  *         SE_REF_FILE, SE_REF_SYNTHETIC) or come from scfg->pulse_channel; the direct-arrival self
- *         reference and acceleration/displacement responses (which need the whole record for their
- *         conversion) are refused with SE_ERR_ARG
+ *         reference, acceleration/displacement responses (which need the whole record for their
+ *         conversion) and skin-effect loss (cfg->skin_k_s05_per_m not 0: loss-shaped templates
+ *         on the whole record) are refused with SE_ERR_ARG
  *  scfg : NULL = defaults
  *  res  : filled as by se_locate (caller frees with se_locate_result_free even on failure)
  *  info : may be NULL

@@ -1313,6 +1313,10 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
                        "stream locate: %s responses need the whole record to become velocity; "
                        "locate them without streaming",
                        se_quantity_name(cfg.quantity));
+    if (cfg.skin_k_s05_per_m != 0.0) /* NaN (estimate) too */
+        return se_fail(err, SE_ERR_ARG,
+                       "stream locate: skin-effect loss (loss-shaped templates) needs the whole "
+                       "record; locate without streaming");
     if (cfg.reference_kind == SE_REF_SELF && scfg.pulse_channel == SE_STREAM_NO_CHANNEL)
         return se_fail(err, SE_ERR_ARG,
                        "stream locate: the self reference needs the whole record; give the pulse "
