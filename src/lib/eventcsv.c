@@ -9,12 +9,13 @@
 #include "internal.h"
 #include "strandecho/output.h"
 
-/* Longest row: 14 fields of at most 24 characters. */
+/* Longest row: 18 fields of at most 24 characters. */
 #define SE_CSV_ROW 512
 
 static const char se_csv_header[] =
     "index,delay_s,delay_uncertainty_s,distance_m,distance_uncertainty_m,polarity,impedance,class,"
-    "reflection,reflection_uncertainty,snr_db,low_confidence,multiple,multiple_of\n";
+    "reflection,reflection_uncertainty,snr_db,low_confidence,multiple,multiple_of,"
+    "predicted_multiple,previous_shot,skin_corrected,skin_shift_s\n";
 
 static void se_csv_num(char *buf, size_t size, double v);
 static size_t se_csv_row(const se_locate_result *res, size_t i, char *row);
@@ -47,7 +48,7 @@ static void se_csv_num(char *buf, size_t size, double v)
 static size_t se_csv_row(const se_locate_result *res, size_t i, char *row)
 {
     const se_event *ev = &res->events[i];
-    char f[8][32], mo[32] = "";
+    char f[9][32], mo[32] = "", ps[16] = "";
     int n;
     se_csv_num(f[0], sizeof f[0], ev->delay_s);
     se_csv_num(f[1], sizeof f[1], ev->delay_uncertainty_s);
@@ -56,15 +57,24 @@ static size_t se_csv_row(const se_locate_result *res, size_t i, char *row)
     se_csv_num(f[4], sizeof f[4], ev->reflection);
     se_csv_num(f[5], sizeof f[5], ev->reflection_uncertainty);
     se_csv_num(f[6], sizeof f[6], ev->snr_db);
+    se_csv_num(f[7], sizeof f[7], ev->predicted);
+    /* skin_shift_s and previous_shot are null in the JSON when they do not apply: empty here */
+    if (ev->skin_corrected)
+        se_csv_num(f[8], sizeof f[8], ev->skin_shift_s);
+    else
+        f[8][0] = '\0';
+    if (ev->multiple && ev->previous_shot > 0)
+        snprintf(ps, sizeof ps, "%d", ev->previous_shot);
     if (ev->multiple) {
         if (ev->multiple_of[0] >= 0 && ev->multiple_of[1] >= 0)
             snprintf(mo, sizeof mo, "%d;%d", ev->multiple_of[0] + 1, ev->multiple_of[1] + 1);
         else if (ev->multiple_of[0] >= 0 || ev->multiple_of[1] >= 0)
             snprintf(mo, sizeof mo, "%d", (ev->multiple_of[0] >= 0 ? ev->multiple_of[0] : ev->multiple_of[1]) + 1);
     }
-    n = snprintf(row, SE_CSV_ROW, "%zu,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s\n", i + 1, f[0], f[1], f[2], f[3],
-                 se_event_polarity(ev), se_event_impedance(ev), se_event_class(res, ev), f[4], f[5], f[6],
-                 ev->low_confidence ? "true" : "false", ev->multiple ? "true" : "false", mo);
+    n = snprintf(row, SE_CSV_ROW, "%zu,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s\n", i + 1, f[0], f[1],
+                 f[2], f[3], se_event_polarity(ev), se_event_impedance(ev), se_event_class(res, ev), f[4], f[5],
+                 f[6], ev->low_confidence ? "true" : "false", ev->multiple ? "true" : "false", mo, f[7], ps,
+                 ev->skin_corrected ? "true" : "false", f[8]);
     return n > 0 && n < SE_CSV_ROW ? (size_t)n : 0;
 }
 
