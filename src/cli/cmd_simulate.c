@@ -627,27 +627,43 @@ int se_cmd_simulate(int argc, char **argv)
                 skin = kmean * (ln->length_m / (0.5 * ln->round_trip_s)) / ln->segments[0].speed_near_m_s;
         }
     }
-    if (se_pulse_parse(pulse, &rec.pulse, &err) != SE_OK)
-        return se_cli_fail(SE_EXIT_USAGE, "--pulse: %s", err.message);
-    if (se_unit_parse(rate, SE_UNIT_FREQUENCY, "Hz", &rec.rate_hz, &err) != SE_OK)
-        return se_cli_fail(SE_EXIT_USAGE, "--rate: %s", err.message);
-    if (se_unit_parse(duration, SE_UNIT_TIME, "s", &rec.duration_s, &err) != SE_OK)
-        return se_cli_fail(SE_EXIT_USAGE, "--duration: %s", err.message);
+    if (se_pulse_parse(pulse, &rec.pulse, &err) != SE_OK) {
+        rc = se_cli_fail(SE_EXIT_USAGE, "--pulse: %s", err.message);
+        goto done;
+    }
+    if (se_unit_parse(rate, SE_UNIT_FREQUENCY, "Hz", &rec.rate_hz, &err) != SE_OK) {
+        rc = se_cli_fail(SE_EXIT_USAGE, "--rate: %s", err.message);
+        goto done;
+    }
+    if (se_unit_parse(duration, SE_UNIT_TIME, "s", &rec.duration_s, &err) != SE_OK) {
+        rc = se_cli_fail(SE_EXIT_USAGE, "--duration: %s", err.message);
+        goto done;
+    }
     rec.pulse_start_s = 2.0 * rec.pulse.duration_s;
     if (pulse_start != NULL &&
-        se_unit_parse(pulse_start, SE_UNIT_TIME, "s", &rec.pulse_start_s, &err) != SE_OK)
-        return se_cli_fail(SE_EXIT_USAGE, "--pulse-start: %s", err.message);
-    if (source_end != NULL && se_termination_parse(source_end, q, &rs, &err) != SE_OK)
-        return se_cli_fail(SE_EXIT_USAGE, "--source-end: %s", err.message);
+        se_unit_parse(pulse_start, SE_UNIT_TIME, "s", &rec.pulse_start_s, &err) != SE_OK) {
+        rc = se_cli_fail(SE_EXIT_USAGE, "--pulse-start: %s", err.message);
+        goto done;
+    }
+    if (source_end != NULL && se_termination_parse(source_end, q, &rs, &err) != SE_OK) {
+        rc = se_cli_fail(SE_EXIT_USAGE, "--source-end: %s", err.message);
+        goto done;
+    }
     for (i = 0; i < nrefl; i++)
-        if (se_parse_at("--reflector", refl_spec[i], q, &refl[i].distance_m, &refl[i].reflection) != 0)
-            return SE_EXIT_USAGE;
-    if (fd && shots > 1.0)
-        return se_cli_fail(SE_EXIT_USAGE, "--shots goes with the lattice model (drop --model fd)");
-    if (fd && skin > 0.0)
-        return se_cli_fail(SE_EXIT_USAGE, "%s goes with the lattice model (drop --model fd%s)",
-                           skin_text != NULL ? "--skin-loss" : "the line file's skin_loss",
-                           skin_text != NULL ? "" : ", or give --skin-loss 0");
+        if (se_parse_at("--reflector", refl_spec[i], q, &refl[i].distance_m, &refl[i].reflection) != 0) {
+            rc = SE_EXIT_USAGE;
+            goto done;
+        }
+    if (fd && shots > 1.0) {
+        rc = se_cli_fail(SE_EXIT_USAGE, "--shots goes with the lattice model (drop --model fd)");
+        goto done;
+    }
+    if (fd && skin > 0.0) {
+        rc = se_cli_fail(SE_EXIT_USAGE, "%s goes with the lattice model (drop --model fd%s)",
+                         skin_text != NULL ? "--skin-loss" : "the line file's skin_loss",
+                         skin_text != NULL ? "" : ", or give --skin-loss 0");
+        goto done;
+    }
     if (fd) {
         rec.noise_rms = noise;
         rec.seed = (unsigned long)seed;
@@ -664,8 +680,10 @@ int se_cmd_simulate(int argc, char **argv)
         sp.speed_m_s = ln->segments[0].speed_near_m_s;
         snprintf(sp.source, sizeof sp.source, "line file %s", line_path);
     } else if (end_spec != NULL) {
-        if (se_parse_at("--end", end_spec, q, &end_d, &end_r) != 0)
-            return SE_EXIT_USAGE;
+        if (se_parse_at("--end", end_spec, q, &end_d, &end_r) != 0) {
+            rc = SE_EXIT_USAGE;
+            goto done;
+        }
     } else {
         /* no far end inside the record: a matched end just beyond everything */
         end_d = 0.5 * sp.speed_m_s * rec.duration_s * 1.01;
@@ -677,26 +695,32 @@ int se_cmd_simulate(int argc, char **argv)
     {
         const char *inputs[1] = {NULL};
         if ((rc = se_cli_check_output(out, inputs)) != SE_EXIT_OK)
-            return rc;
+            goto done;
     }
     rec.noise_rms = shots > 1.0 ? 0.0 : noise; /* repeated shots: noise added once, afterwards */
     rec.seed = (unsigned long)seed;
     if (interval != NULL &&
-        se_unit_parse(interval, SE_UNIT_TIME, "s", &interval_s, &err) != SE_OK)
-        return se_cli_fail(SE_EXIT_USAGE, "--interval: %s", err.message);
+        se_unit_parse(interval, SE_UNIT_TIME, "s", &interval_s, &err) != SE_OK) {
+        rc = se_cli_fail(SE_EXIT_USAGE, "--interval: %s", err.message);
+        goto done;
+    }
     if (shots > 1.0 && interval == NULL)
         interval_s = rec.duration_s / shots;
-    if (shots > 1.0 && !(interval_s > rec.pulse.duration_s && interval_s * (shots - 1.0) < rec.duration_s))
-        return se_cli_fail(SE_EXIT_USAGE,
-                           "--interval: %g s between %g shots does not fit a %g s record (or is "
-                           "shorter than the pulse)",
-                           interval_s, shots, rec.duration_s);
+    if (shots > 1.0 &&
+        !(interval_s > rec.pulse.duration_s && interval_s * (shots - 1.0) < rec.duration_s)) {
+        rc = se_cli_fail(SE_EXIT_USAGE,
+                         "--interval: %g s between %g shots does not fit a %g s record (or is "
+                         "shorter than the pulse)",
+                         interval_s, shots, rec.duration_s);
+        goto done;
+    }
     if (ln != NULL) {
         if (loss > 0.0)
             line.loss_np_per_s = loss * log(10.0) / 20.0 * sp.speed_m_s;
     } else if (se_sim_uniform_line(sp.speed_m_s, refl, nrefl, end_d, end_r, rs, loss, &ifs, &line,
                                    &err) != SE_OK) {
-        return se_cli_fail(se_cli_exit_code(err.code, 0), "simulate: %s", err.message);
+        rc = se_cli_fail(se_cli_exit_code(err.code, 0), "simulate: %s", err.message);
+        goto done;
     }
     if (!(rec.duration_s * rec.rate_hz <= (double)((size_t)1 << 31))) {
         rc = se_cli_fail(SE_EXIT_MEMORY,
