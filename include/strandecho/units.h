@@ -109,10 +109,10 @@ se_status se_unit_factor(se_unit_kind kind, const char *unit, double *factor, se
  *   text         : the value; leading and trailing white space ignored. NUL-terminated.
  *   k_s05_per_m  : [out] K, s^0.5/m, 0 <= K <= SE_SKIN_LOSS_MAX; untouched on failure.
  *   err          : [out, may be NULL] one line naming the text and what is wrong.
- * Returns SE_OK; SE_ERR_ARG for NULL or empty text, not a number, a non-finite number, a
- * datasheet value without its length or its frequency ("missing frequency"), or text after it;
- * SE_ERR_UNIT for an unknown unit (of the value, the length or the frequency) or a missing
- * length or frequency unit; SE_ERR_RANGE for a negative value, a zero length or frequency, or a
+ * Returns SE_OK; SE_ERR_ARG for NULL or empty text, not a number, a non-finite number, or a
+ * datasheet value without its length or its frequency ("missing frequency"); SE_ERR_UNIT for an
+ * unknown unit (of the value, the length or the frequency), a missing length or frequency unit,
+ * or text after the frequency; SE_ERR_RANGE for a negative value, a zero length or frequency, or a
  * K above SE_SKIN_LOSS_MAX (or one that overflows). */
 se_status se_skin_loss_parse(const char *text, double *k_s05_per_m, se_error *err);
 
