@@ -3,7 +3,10 @@
  * URL, no src=, no script, only local url(#...) references), each event's distance and every
  * caution are present, user strings are escaped, expected versus found pairs the shackle and flags
  * the unexpected reflection, the uncertainty statement follows the speed uncertainty, feet, ids
- * unique across plots, the same bytes twice. With "--html-out DIR" it writes report-sample.html
+ * unique across plots, the same bytes twice; the locator's newer fields in client words (taps closer
+ * than the ring-down, an earlier tap's echo, the attenuation and how it was obtained, the
+ * skin-effect loss and the events matched with loss-shaped templates, a primary's predicted
+ * multiple share), from a result record set here. With "--html-out DIR" it writes report-sample.html
  * and survey-sample.html into DIR (the browser test uses that); by default into the build folder. */
 #include <math.h>
 #include <stdio.h>
@@ -120,6 +123,235 @@ static size_t count(const char *h, const char *needle)
         h += strlen(needle);
     }
     return n;
+}
+
+/* The report's sentence: text with its first letter capitalised and a full stop (as the report
+ * writes the locator's warning), HTML-escaped. */
+static void sentence_of(const char *text, char *out, size_t size)
+{
+    char t[600];
+    size_t n;
+    snprintf(t, sizeof t, "%s", text);
+    if (t[0] >= 'a' && t[0] <= 'z')
+        t[0] = (char)(t[0] - 'a' + 'A');
+    n = strlen(t);
+    if (n > 0 && n + 1 < sizeof t && t[n - 1] != '.') {
+        t[n] = '.';
+        t[n + 1] = '\0';
+    }
+    esc(t, out, size);
+}
+
+/* The text between the start of the row holding needle and its end, or NULL. */
+static const char *row_of(const char *html, const char *needle, char *out, size_t size)
+{
+    const char *hit = strstr(html, needle), *b, *e;
+    if (hit == NULL)
+        return NULL;
+    for (b = hit; b > html && strncmp(b, "<tr", 3) != 0; b--)
+        ;
+    e = strstr(hit, "</tr>");
+    if (e == NULL || (size_t)(e - b) + 1 > size)
+        return NULL;
+    memcpy(out, b, (size_t)(e - b));
+    out[e - b] = '\0';
+    return out;
+}
+
+/* The locator's newer result fields, in the report: a record set by hand as se_locate fills it. */
+static void check_new_fields(void)
+{
+    fixture g;
+    se_run_info gi;
+    se_report_line gl;
+    se_report gr;
+    se_error err;
+    char *html, want[1400], warn[600], row[4000];
+    double db;
+
+    make_fixture(&g);
+    se_run_info_init(&gi);
+    gi.input_file = "leg-d.wav";
+    gi.input_format = "WAV float32";
+    gi.reference = "channel 2";
+    gi.speed_source = "--speed 3000 m/s";
+    gi.false_alarms = 0.01;
+    gi.confidence = 0.95;
+    se_report_line_init(&gl);
+    gl.name = "Leg D";
+    gl.result = &g.res;
+    gl.info = &gi;
+    se_report_init(&gr);
+    gr.lines = &gl;
+    gr.n_lines = 1;
+    gr.survey = 1; /* with the summary table */
+
+    /* five taps 2 s apart on a line ringing for 5.3 s; the 500 m echo is the previous tap's, the
+     * 820 m one the tap's three before */
+    g.res.shots_found = 5;
+    g.res.shots_used = 5;
+    g.res.shot_interval_s = 2.0;
+    g.res.ring_down_s = 5.3;
+    g.res.shots_overlap = 1;
+    g.ev[1].previous_shot = 1;
+    g.ev[1].multiple_of[0] = -1;
+    g.ev[3].multiple = 1;
+    g.ev[3].previous_shot = 3;
+    g.ev[3].multiple_of[0] = g.ev[3].multiple_of[1] = -1;
+    /* the attenuation from three of the end's repeats */
+    g.res.attenuation_db_per_m = 0.0123;
+    g.res.attenuation_uncertainty_db_per_m = 0.0011;
+    g.res.attenuation_method = SE_ATTEN_END_MULTIPLES;
+    g.res.attenuation_estimated = 1;
+    g.res.attenuation_repeats = 3;
+    /* skin-effect loss estimated from three echoes; two detections dropped as pieces */
+    g.res.skin_k_s05_per_m = 4.3e-7;
+    g.res.skin_k_uncertainty = 2e-8;
+    g.res.skin_k_estimated = 1;
+    g.res.skin_fit_echoes = 3;
+    g.res.skin_explained = 2;
+    g.ev[2].skin_corrected = 1;
+    g.ev[2].skin_shift_s = 0.0;
+    g.ev[4].skin_corrected = 1;
+    g.ev[4].skin_shift_s = 1.5e-6;
+    /* a multiple share at the 250 m primary (0.05 > its 0.003 uncertainty), a negligible one at 600 m */
+    g.ev[0].predicted = 0.05;
+    g.ev[2].predicted = 0.001;
+
+    html = se_report_html(&gr, &err);
+    CHECK(html != NULL);
+    if (html == NULL) {
+        fprintf(stderr, "%s\n", err.message);
+        free(g.trace);
+        return;
+    }
+    CHECK(balanced(html));
+    CHECK(self_contained(html));
+    /* the overlap warning: the locator's sentence, framed, with its badge (a measurement warning, not
+     * a fault: no "Possible fault" badge), under the finding sentence and before the table */
+    CHECK(se_locate_overlap_warning(&g.res, warn, sizeof warn) == 1);
+    {
+        char s1[800];
+        const char *p, *table = strstr(html, "<table class=\"events\">");
+        sentence_of(warn, s1, sizeof s1);
+        snprintf(want, sizeof want, "<p class=\"finding warn overlap\"><span class=\"flag\">");
+        p = strstr(html, want);
+        CHECK(p != NULL && table != NULL && p < table);
+        snprintf(want, sizeof want, "Measurement warning</span>Taps closer together than the line's ring-down. %s "
+                                    "Events marked as an earlier tap's echo are not faults.</p>", s1);
+        CHECK(p != NULL && strstr(p, want) == strstr(html, want) && strstr(html, want) != NULL);
+        CHECK(strstr(s1, "The taps are 2.0 s apart but the line rings for 5.3 s") == s1);
+    }
+    CHECK(count(html, "<span class=\"flag\">") == 1 && count(html, "Possible fault") == 0);
+    CHECK(row_of(html, "href=\"#line-1\"", row, sizeof row) != NULL &&
+          strstr(row, "<strong>Measurement warning: the taps overlap (echoes of an earlier tap lie in the recording; "
+                      "see the line's section).</strong>") != NULL &&
+          strstr(row, "class=\"attention\"") == NULL);
+    /* the earlier taps' echoes, in the events table */
+    CHECK(row_of(html, "<td class=\"n\">500.0</td>", row, sizeof row) != NULL &&
+          strstr(row, "<td>echo of the previous tap: not a fault</td>") != NULL &&
+          strstr(row, "class=\"multiple\"") != NULL);
+    CHECK(row_of(html, "<td class=\"n\">820.0</td>", row, sizeof row) != NULL &&
+          strstr(row, "<td>echo of an earlier tap (3 taps before): not a fault; low confidence: the delay may sit on "
+                      "a wrong peak</td>") != NULL);
+    CHECK(strstr(html, "multiple of") == NULL);
+    /* the primary's predicted multiple share (0.30 - 0.05), none at 600 m (0.001 < 0.012) */
+    CHECK(row_of(html, "<td class=\"n\">250.0</td>", row, sizeof row) != NULL &&
+          strstr(row, "<td>multiples of earlier reflections also arrive here (predicted 0.050): the reflector's own "
+                      "share is about 0.250</td>") != NULL);
+    CHECK(count(html, "multiples of earlier reflections also arrive here") == 1);
+    /* loss-shaped templates: 600 m (no shift), 1000 m (1.5 us earlier) */
+    CHECK(row_of(html, "<td class=\"n\">600.0</td>", row, sizeof row) != NULL &&
+          strstr(row, "<td>matched with the loss-shaped pulse</td>") != NULL);
+    CHECK(row_of(html, "<td class=\"n\">5</td><td class=\"n\">1000.0</td>", row, sizeof row) != NULL &&
+          strstr(row, "<td>matched with the loss-shaped pulse, placed 1.5 &micro;s earlier than the undistorted "
+                      "match</td>") != NULL);
+    /* the attenuation and how it was obtained */
+    CHECK(strstr(html, "<h3>Losses along the line</h3>") != NULL);
+    CHECK(strstr(html, "<p>Attenuation of the line: 0.0123 \xc2\xb1 0.0011 dB/m one way (one standard "
+                       "uncertainty), estimated from the decay of the end&#39;s repeats (3 arrivals of the end&#39;s "
+                       "echo fitted), a full reflection at the end assumed (a fixed or free end, or a break; a weaker "
+                       "reflection there would be counted as loss). The reflections in the findings table are as seen "
+                       "at the sensor, with this loss not removed.</p>") != NULL);
+    /* the skin-effect loss: dB per 100 m at 100 MHz from alpha = K sqrt(pi f) Np/m and 20 / ln 10 dB
+     * per neper (the neper-decibel relation, NIST SP 811; the conversion of units.h) */
+    db = 20.0 / log(10.0) * 4.3e-7 * 100.0 * sqrt(3.14159265358979323846 * 1e8);
+    snprintf(want, sizeof want, "<p>Skin-effect loss of the cable: K = 4.3e-07 \xc2\xb1 2e-08 s^0.5/m (one standard "
+                                "uncertainty), estimated from the shapes of 3 echoes; equivalent to %.3g dB per 100 m "
+                                "at 100 MHz with all of the cable&#39;s loss taken as skin-effect (conductor) loss. It "
+                                "smears each echo more the farther it travels; a match with the undistorted pulse would "
+                                "place such echoes late and split them into several peaks. So each echo was matched "
+                                "with the pulse shape this loss gives it: 2 events matched so (marked in the findings "
+                                "table), 2 detections of the undistorted match dropped as pieces of a distorted echo, "
+                                "not separate reflections.</p>",
+             db);
+    CHECK(strstr(html, want) != NULL);
+    CHECK(fabs(db - 6.62) < 0.01); /* 6.6 dB/100 m at 100 MHz is about 4.3e-7 (units.h's example) */
+    /* parameters: the taps, ring-down and the losses */
+    CHECK(strstr(html, "<tr><th scope=\"row\">taps</th><td>5 found, 5 stacked; 2 s apart; the line rings for 5.3 s "
+                       "after a tap (they overlap: see the warning)</td></tr>") != NULL);
+    CHECK(strstr(html, "<tr><th scope=\"row\">attenuation</th><td>0.0123 \xc2\xb1 0.0011 dB/m one way (one standard "
+                       "uncertainty), estimated from the decay of the end&#39;s repeats (3 arrivals of the end&#39;s "
+                       "echo fitted), a full reflection at the end assumed (a fixed or free end, or a break; a weaker "
+                       "reflection there would be counted as loss)</td></tr>") != NULL);
+    CHECK(strstr(html, "<tr><th scope=\"row\">skin-effect loss</th><td>K = 4.3e-07 \xc2\xb1 2e-08") != NULL);
+    free(html);
+
+    /* given values; a known reflector; a line that rings on; no overlap */
+    g.res.shots_overlap = 0;
+    g.res.ring_down_s = INFINITY;
+    g.res.attenuation_method = SE_ATTEN_GIVEN;
+    g.res.attenuation_estimated = 0;
+    g.res.attenuation_db_per_m = 0.002;
+    g.res.attenuation_uncertainty_db_per_m = NAN;
+    g.res.skin_k_estimated = 0;
+    g.res.skin_k_uncertainty = NAN;
+    g.res.skin_fit_echoes = 0;
+    g.res.skin_explained = 0;
+    g.ev[2].skin_corrected = 0;
+    html = se_report_html(&gr, &err);
+    CHECK(html != NULL);
+    if (html != NULL) {
+        CHECK(balanced(html));
+        CHECK(strstr(html, "Measurement warning") == NULL && strstr(html, "Taps closer together") == NULL);
+        CHECK(strstr(html, "<p>Attenuation of the line: 0.002 dB/m one way, as given for this run. The reflections") !=
+              NULL);
+        snprintf(want, sizeof want, "<p>Skin-effect loss of the cable: K = 4.3e-07 s^0.5/m, as given for this run; "
+                                    "equivalent to %.3g dB per 100 m at 100 MHz. It smears", db);
+        CHECK(strstr(html, want) != NULL);
+        CHECK(strstr(html, "1 event matched so (marked in the findings table), 0 detections of the undistorted") !=
+              NULL);
+        CHECK(strstr(html, "2 s apart; the line rings on past any interval</td>") != NULL);
+        /* the earlier taps' echoes are labelled whether or not the warning is raised */
+        CHECK(strstr(html, "echo of the previous tap: not a fault") != NULL);
+        free(html);
+    }
+    g.res.attenuation_method = SE_ATTEN_KNOWN_REFLECTOR;
+    g.res.attenuation_estimated = 1;
+    g.res.attenuation_uncertainty_db_per_m = 0.0004;
+    g.res.skin_k_s05_per_m = 0.0;
+    html = se_report_html(&gr, &err);
+    CHECK(html != NULL);
+    if (html != NULL) {
+        CHECK(strstr(html, "<p>Attenuation of the line: 0.002 \xc2\xb1 0.0004 dB/m one way (one standard "
+                           "uncertainty), estimated from a known reflector (an expected feature of the line "
+                           "description whose reflection coefficient is known).") != NULL);
+        CHECK(strstr(html, "Skin-effect loss of the cable") == NULL);
+        CHECK(strstr(html, "<tr><th scope=\"row\">skin-effect loss</th><td>none (not modelled)</td></tr>") != NULL);
+        free(html);
+    }
+    /* nothing known: no losses section, the parameter says so */
+    g.res.attenuation_method = SE_ATTEN_NONE;
+    g.res.attenuation_db_per_m = NAN;
+    html = se_report_html(&gr, &err);
+    CHECK(html != NULL);
+    if (html != NULL) {
+        CHECK(strstr(html, "Losses along the line") == NULL);
+        CHECK(strstr(html, "<tr><th scope=\"row\">attenuation</th><td>not known: none was given and none could be "
+                           "estimated from this recording</td></tr>") != NULL);
+        free(html);
+    }
+    free(g.trace);
 }
 
 static int write_text(const char *path, const char *text)
@@ -341,6 +573,8 @@ int main(int argc, char **argv)
           strstr(html, "distance from the sensor (ft)")); /* 250 m / 0.3048 = 820.21 ft (NIST SP 811) */
     free(html);
     rep.units = SE_PLOT_METRES;
+
+    check_new_fields();
 
     /* Errors. */
     rl[0].info = NULL;

@@ -11,6 +11,7 @@
 #include "internal.h"
 #include "strandecho/caution.h"
 #include "strandecho/output.h"
+#include "strandecho/units.h"
 
 #define SE_FT 0.3048
 
@@ -67,6 +68,13 @@ static const char *se_rb_dist(se_rb *b, double m, int decimals);
 static const char *se_rb_sig(se_rb *b, double v, int min_decimals);
 static const char *se_rel(const se_report *r, const char *path);
 static void se_flag(se_rb *b);
+static void se_flag_word(se_rb *b, const char *word);
+static void se_note_sep(se_rb *b, size_t mark);
+static int se_overlap_paragraph(se_rb *b, const se_locate_result *res);
+static void se_event_note_multiple(se_rb *b, const se_event *ev);
+static void se_report_losses(se_rb *b, const se_locate_result *res);
+static void se_attenuation_text(se_rb *b, const se_locate_result *res, char *out, size_t size);
+static void se_skin_text(se_rb *b, const se_locate_result *res, char *out, size_t size);
 static int se_attention(const se_report_line *l, int warn);
 static void se_change_sentence(se_rb *b, const se_report_line *l, char *out, size_t size);
 static int se_dist_decimals(const se_locate_result *res, double k);
@@ -181,11 +189,157 @@ static const char *se_rel(const se_report *r, const char *path)
  * colour; near-black like the rest of the report's emphasis. */
 static void se_flag(se_rb *b)
 {
+    se_flag_word(b, "Possible fault");
+}
+
+/* The same badge with another word (a measurement warning is not a fault). */
+static void se_flag_word(se_rb *b, const char *word)
+{
     se_rb_add(b, "<span class=\"flag\"><svg width=\"14\" height=\"13\" viewBox=\"0 0 14 13\" aria-hidden=\"true\">"
                  "<path d=\"M7 0.6L13.6 12.4H0.4Z\" fill=\"#202020\"/><path d=\"M7 4.3V8.6\" stroke=\"#ffffff\" "
-                 "stroke-width=\"1.7\"/><circle cx=\"7\" cy=\"10.5\" r=\"0.95\" fill=\"#ffffff\"/></svg>"
-                 "Possible fault</span>");
+                 "stroke-width=\"1.7\"/><circle cx=\"7\" cy=\"10.5\" r=\"0.95\" fill=\"#ffffff\"/></svg>");
+    se_rb_esc(b, word);
+    se_rb_add(b, "</span>");
 }
+
+/* "; " between the parts of an event's note, none before the first (mark: where the note began). */
+static void se_note_sep(se_rb *b, size_t mark)
+{
+    if (b->sb.len > mark)
+        se_rb_add(b, "; ");
+}
+
+/* The field engineer's warning when the taps were closer together than the line's ring-down, as a
+ * framed paragraph with its badge; 1 when written. */
+static int se_overlap_paragraph(se_rb *b, const se_locate_result *res)
+{
+    char w[512];
+    size_t n;
+    if (!se_locate_overlap_warning(res, w, sizeof w) || w[0] == '\0')
+        return 0;
+    if (w[0] >= 'a' && w[0] <= 'z')
+        w[0] = (char)(w[0] - 'a' + 'A');
+    n = strlen(w);
+    if (n + 1 < sizeof w && w[n - 1] != '.') {
+        w[n] = '.';
+        w[n + 1] = '\0';
+    }
+    se_rb_add(b, "<p class=\"finding warn overlap\">");
+    se_flag_word(b, "Measurement warning");
+    se_rb_add(b, "Taps closer together than the line's ring-down. ");
+    se_rb_esc(b, w);
+    se_rb_add(b, " Events marked as an earlier tap's echo are not faults.</p>\n");
+    return 1;
+}
+
+/* The note of a multiple: an earlier tap's echo, or the primaries that explain it. */
+static void se_event_note_multiple(se_rb *b, const se_event *ev)
+{
+    if (ev->previous_shot == 1) {
+        se_rb_add(b, "echo of the previous tap: not a fault");
+        return;
+    }
+    if (ev->previous_shot > 1) {
+        se_rb_printf(b, "echo of an earlier tap (%d taps before): not a fault", ev->previous_shot);
+        return;
+    }
+    se_rb_add(b, "multiple");
+    if (ev->multiple_of[0] >= 0)
+        se_rb_printf(b, " of %d", ev->multiple_of[0] + 1);
+    if (ev->multiple_of[1] >= 0)
+        se_rb_printf(b, " and %d", ev->multiple_of[1] + 1);
+    se_rb_add(b, ": not a fault");
+}
+
+/* The attenuation and how it was obtained, one sentence (no markup; escaped by the caller). */
+static void se_attenuation_text(se_rb *b, const se_locate_result *res, char *out, size_t size)
+{
+    char pm[96] = "", un[48] = "";
+    const double a = res->attenuation_db_per_m, u = res->attenuation_uncertainty_db_per_m;
+    if (!isfinite(a) || res->attenuation_method == SE_ATTEN_NONE) {
+        snprintf(out, size, "not known: none was given and none could be estimated from this recording");
+        return;
+    }
+    if (isfinite(u) && u > 0.0) { /* "A +/- U dB/m one way (one standard uncertainty)" */
+        snprintf(pm, sizeof pm, " \xc2\xb1 %s", se_rb_g(b, u, 2));
+        snprintf(un, sizeof un, " (one standard uncertainty)");
+    }
+    switch (res->attenuation_method) {
+    case SE_ATTEN_GIVEN:
+        snprintf(out, size, "%s dB/m one way, as given for this run", se_rb_g(b, a, 4));
+        break;
+    case SE_ATTEN_KNOWN_REFLECTOR:
+        snprintf(out, size, "%s%s dB/m one way%s, estimated from a known reflector (an expected feature of the "
+                            "line description whose reflection coefficient is known)",
+                 se_rb_g(b, a, 4), pm, un);
+        break;
+    case SE_ATTEN_END_MULTIPLES:
+        snprintf(out, size, "%s%s dB/m one way%s, estimated from the decay of the end's repeats (%zu arrival%s of "
+                            "the end's echo fitted), a full reflection at the end assumed (a fixed or free end, or "
+                            "a break; a weaker reflection there would be counted as loss)",
+                 se_rb_g(b, a, 4), pm, un, res->attenuation_repeats, res->attenuation_repeats == 1 ? "" : "s");
+        break;
+    default: /* a method this version does not know: the value alone */
+        snprintf(out, size, "%s dB/m one way", se_rb_g(b, a, 4));
+        break;
+    }
+}
+
+/* The skin-effect loss used, one sentence; "" without skin loss. */
+static void se_skin_text(se_rb *b, const se_locate_result *res, char *out, size_t size)
+{
+    const double k = res->skin_k_s05_per_m;
+    const double db = se_skin_loss_attenuation_db(k, 100.0, 1e8);
+    out[0] = '\0';
+    if (!(k > 0.0) && !res->skin_k_estimated)
+        return;
+    if (res->skin_k_estimated) {
+        char pm[64] = "";
+        if (isfinite(res->skin_k_uncertainty) && res->skin_k_uncertainty > 0.0)
+            snprintf(pm, sizeof pm, " \xc2\xb1 %s", se_rb_g(b, res->skin_k_uncertainty, 2));
+        snprintf(out, size, "K = %s%s s^0.5/m (one standard uncertainty), estimated from the shapes of %zu "
+                            "echo%s; equivalent to %s dB per 100 m at 100 MHz with all of the cable's loss taken as "
+                            "skin-effect (conductor) loss",
+                 se_rb_g(b, k, 3), pm, res->skin_fit_echoes, res->skin_fit_echoes == 1 ? "" : "es",
+                 se_rb_g(b, db, 3));
+    } else {
+        snprintf(out, size, "K = %s s^0.5/m, as given for this run; equivalent to %s dB per 100 m at 100 MHz",
+                 se_rb_g(b, k, 3), se_rb_g(b, db, 3));
+    }
+}
+
+/* Losses along the line: the attenuation and the skin-effect loss, when either is known. */
+static void se_report_losses(se_rb *b, const se_locate_result *res)
+{
+    char t[512];
+    size_t i, ncorr = 0;
+    int atten = isfinite(res->attenuation_db_per_m) && res->attenuation_method != SE_ATTEN_NONE;
+    se_skin_text(b, res, t, sizeof t);
+    if (!atten && t[0] == '\0')
+        return;
+    se_rb_add(b, "<h3>Losses along the line</h3>\n");
+    if (atten) {
+        char a[512];
+        se_attenuation_text(b, res, a, sizeof a);
+        se_rb_add(b, "<p>Attenuation of the line: ");
+        se_rb_esc(b, a);
+        se_rb_add(b, ". The reflections in the findings table are as seen at the sensor, with this loss not "
+                     "removed.</p>\n");
+    }
+    if (t[0] != '\0') {
+        for (i = 0; i < res->n_events; i++)
+            ncorr += res->events[i].skin_corrected != 0;
+        se_rb_add(b, "<p>Skin-effect loss of the cable: ");
+        se_rb_esc(b, t);
+        se_rb_printf(b, ". It smears each echo more the farther it travels; a match with the undistorted pulse "
+                        "would place such echoes late and split them into several peaks. So each echo was matched "
+                        "with the pulse shape this loss gives it: %zu event%s matched so (marked in the findings "
+                        "table), %zu detection%s of the undistorted match dropped as pieces of a distorted echo, "
+                        "not separate reflections.</p>\n",
+                     ncorr, ncorr == 1 ? "" : "s", res->skin_explained, res->skin_explained == 1 ? "" : "s");
+    }
+}
+
 
 /* 1 when the line's finding may be a fault: a change since the baseline that is not secondary, or
  * what the locate sentence flags (an unexpected reflection, a missing end). */
@@ -434,6 +588,9 @@ static void se_report_summary(se_rb *b, const se_report *r, se_rmatch *m)
             if (any_compare)
                 se_rb_add(b, " <span class=\"also\">No baseline to compare with.</span>");
         }
+        if (res->shots_overlap)
+            se_rb_add(b, " <strong>Measurement warning: the taps overlap (echoes of an earlier tap lie in the "
+                         "recording; see the line's section).</strong>");
         se_rb_add(b, "</td></tr>\n");
     }
     se_rb_add(b, "</tbody></table>\n");
@@ -523,6 +680,7 @@ static se_status se_report_section(se_rb *b, const se_report *r, size_t index, s
         se_flag(b);
     se_rb_esc(b, sentence);
     se_rb_add(b, "</p>\n");
+    se_overlap_paragraph(b, res);
     if (l->plot != NULL) {
         se_plot_data pd = *l->plot;
         char pfx[32], *svg;
@@ -555,6 +713,7 @@ static se_status se_report_section(se_rb *b, const se_report *r, size_t index, s
                  b->u, b->u, se_rb_g(b, conf * 100.0, 3));
     for (i = 0; i < res->n_events; i++) {
         const se_event *ev = &res->events[i];
+        size_t mark;
         se_rb_printf(b, "<tr%s><td class=\"n\">%zu</td><td class=\"n\">%s</td><td class=\"n\">%s</td>"
                         "<td class=\"n\">%s</td><td>%s</td><td>%s</td><td class=\"n\">%s</td><td class=\"n\">%s</td>"
                         "<td class=\"n\">%s</td><td>",
@@ -562,13 +721,9 @@ static se_status se_report_section(se_rb *b, const se_report *r, size_t index, s
                      se_rb_sig(b, ev->distance_uncertainty_m * b->k, dd + 1), se_rb_num(b, ev->delay_s * 1e3, 4),
                      se_event_class(res, ev), se_event_polarity(ev), se_rb_num(b, ev->reflection, 3),
                      se_rb_sig(b, ev->reflection_uncertainty, 3), se_rb_num(b, ev->snr_db, 1));
+        mark = b->sb.len;
         if (ev->multiple) {
-            se_rb_add(b, "multiple");
-            if (ev->multiple_of[0] >= 0)
-                se_rb_printf(b, " of %d", ev->multiple_of[0] + 1);
-            if (ev->multiple_of[1] >= 0)
-                se_rb_printf(b, " and %d", ev->multiple_of[1] + 1);
-            se_rb_add(b, ": not a fault");
+            se_event_note_multiple(b, ev);
         } else if (m->nex > 0 && ev->expected >= 0 && (size_t)ev->expected < m->nex) {
             se_rb_add(b, "expected: ");
             se_rb_esc(b, m->ex[ev->expected].name);
@@ -581,18 +736,38 @@ static se_status se_report_section(se_rb *b, const se_report *r, size_t index, s
                 const se_change *ch = &l->compare->changes[c];
                 if (ch->event_now != (int)i || ch->secondary)
                     continue;
-                se_rb_printf(b, "%s<strong>%s since the baseline</strong>",
-                             ev->multiple || (m->nex > 0) ? "; " : "",
+                se_note_sep(b, mark);
+                se_rb_printf(b, "<strong>%s since the baseline</strong>",
                              ch->kind == SE_CHANGE_NEW     ? "new"
                              : ch->kind == SE_CHANGE_MOVED ? "moved"
                                                            : "changed in strength");
                 break;
             }
         }
-        if (ev->low_confidence)
-            se_rb_add(b, "; low confidence: the delay may sit on a wrong peak");
-        if (res->break_event == (int)i && res->end_missing)
-            se_rb_add(b, "; <strong>likely break or open fault</strong>");
+        /* a primary where the multiples of the reflectors before it also arrive, when that is at least
+         * the reflection's standard uncertainty (smaller is below what the measurement resolves) */
+        if (!ev->multiple && isfinite(ev->predicted) && ev->predicted != 0.0 &&
+            fabs(ev->predicted) >= ev->reflection_uncertainty) {
+            se_note_sep(b, mark);
+            se_rb_printf(b, "multiples of earlier reflections also arrive here (predicted %s): the reflector's own "
+                            "share is about %s",
+                         se_rb_num(b, ev->predicted, 3), se_rb_num(b, ev->reflection - ev->predicted, 3));
+        }
+        if (ev->skin_corrected) {
+            se_note_sep(b, mark);
+            se_rb_add(b, "matched with the loss-shaped pulse");
+            if (isfinite(ev->skin_shift_s) && ev->skin_shift_s > 0.0)
+                se_rb_printf(b, ", placed %s &micro;s earlier than the undistorted match",
+                             se_rb_g(b, ev->skin_shift_s * 1e6, 3));
+        }
+        if (ev->low_confidence) {
+            se_note_sep(b, mark);
+            se_rb_add(b, "low confidence: the delay may sit on a wrong peak");
+        }
+        if (res->break_event == (int)i && res->end_missing) {
+            se_note_sep(b, mark);
+            se_rb_add(b, "<strong>likely break or open fault</strong>");
+        }
         se_rb_add(b, "</td></tr>\n");
     }
     if (res->n_events == 0)
@@ -632,6 +807,8 @@ static se_status se_report_section(se_rb *b, const se_report *r, size_t index, s
         }
         se_rb_add(b, "</tbody></table>\n");
     }
+
+    se_report_losses(b, res);
 
     /* Uncertainty. */
     se_rb_add(b, "<h3>What the &plusmn; means</h3>\n<p>");
@@ -681,7 +858,7 @@ static se_status se_report_section(se_rb *b, const se_report *r, size_t index, s
     /* Parameters. */
     se_rb_add(b, "<h3>Parameters</h3>\n<table class=\"params\"><tbody>\n");
     {
-        char v[256];
+        char v[640]; /* the attenuation's sentence is the longest value */
         se_param_row(b, "input format", info->input_format);
         snprintf(v, sizeof v, "%zu samples per channel, %u channel%s, response channel %u", info->input_frames,
                  info->input_channels, info->input_channels == 1 ? "" : "s", info->channel);
@@ -738,6 +915,24 @@ static se_status se_report_section(se_rb *b, const se_report *r, size_t index, s
         se_param_row(b, "RMS bandwidth", v);
         snprintf(v, sizeof v, "%s", se_rb_dist(b, res->record_range_m, 1));
         se_param_row(b, "record reaches", v);
+        se_attenuation_text(b, res, v, sizeof v);
+        se_param_row(b, "attenuation", v);
+        se_skin_text(b, res, v, sizeof v);
+        se_param_row(b, "skin-effect loss", v[0] != '\0' ? v : "none (not modelled)");
+        if (res->shots_found > 1) {
+            int n = snprintf(v, sizeof v, "%zu found, %zu stacked", res->shots_found, res->shots_used);
+            if (n > 0 && (size_t)n < sizeof v && res->shot_interval_s > 0.0) {
+                if (isfinite(res->ring_down_s))
+                    snprintf(v + n, sizeof v - (size_t)n, "; %s s apart; the line rings for %s s after a tap%s",
+                             se_rb_g(b, res->shot_interval_s, 3), se_rb_g(b, res->ring_down_s, 3),
+                             res->shots_overlap ? " (they overlap: see the warning)" : "");
+                else
+                    snprintf(v + n, sizeof v - (size_t)n, "; %s s apart; the line rings on past any interval%s",
+                             se_rb_g(b, res->shot_interval_s, 3),
+                             res->shots_overlap ? " (they overlap: see the warning)" : "");
+            }
+            se_param_row(b, "taps", v);
+        }
         if (l->plot != NULL && isfinite(l->plot->gain_db_per_m) && l->plot->gain_db_per_m != 0.0) {
             snprintf(v, sizeof v, "%s dB/m (plot only)", se_rb_g(b, l->plot->gain_db_per_m, 4));
             se_param_row(b, "display gain with distance", v);
