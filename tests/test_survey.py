@@ -10,12 +10,18 @@ and a survey file naming them, one with a baseline recording:
 - the leg with a baseline reports exactly one change that may be a fault, the reflector added;
 - no progress bar when stderr is not a terminal;
 - a survey file error names FILE:LINE:COLUMN and exits 3; a bad --shard exits 2;
+- a line's skin_loss (a datasheet value, or `estimate`) reaches the locator: the object equals a
+  single `locate --skin-loss` run and holds K = 6.6 / (20 / ln 10) / 100 / sqrt(pi 1e8) s^0.5/m
+  (units.h's conversion, the neper-decibel relation of NIST SP 811); a bad value is refused naming
+  FILE:LINE:COLUMN;
+- taps closer together than the ring-down are noted "taps overlap" in the summary table;
 - the combined report holds every line's name; run with the survey file's full path it shows the
   recordings as the file gives them (legs/...), the full paths only beside their SHA-256, and the
   baseline line's finding as the comparison's sentence, flagged "Possible fault".
 
 Oracle: the simulated lines themselves and the single-run results (common practice, no source)."""
 import json
+import math
 import os
 import shutil
 import subprocess
@@ -210,6 +216,62 @@ def main():
         ml = open(os.path.join(tmp, "m.jsonl")).read().splitlines()
         check(len(ml) == 3 and "error" in json.loads(ml[2]) and "error" not in json.loads(ml[0]),
               "the other recordings are still written, the failed one carries its error")
+
+        # skin_loss: a datasheet value and "estimate" reach se_locate_config.skin_k_s05_per_m
+        with open(os.path.join(tmp, "skin.yaml"), "w") as f:
+            f.write("lines:\n"
+                    "  - recording: legs/a.wav\n    pulse_channel: 2\n    tension: 20 kN\n"
+                    "    mass_per_length: 1.25 kg/m\n    skin_loss: 6.6 dB/100 m @ 100 MHz\n"
+                    "  - recording: legs/a.wav\n    pulse_channel: 2\n    tension: 20 kN\n"
+                    "    mass_per_length: 1.25 kg/m\n    skin_loss: estimate\n")
+        rc, _, se = run(["survey", "skin.yaml", "--jsonl", "skin.jsonl", "--quiet"], tmp)
+        check(rc == 0, "survey with skin_loss exit 0 (%d %s)" % (rc, se))
+        sk = [json.loads(l) for l in open(os.path.join(tmp, "skin.jsonl")).read().splitlines()]
+        check(len(sk) == 2, "two skin_loss objects (got %d)" % len(sk))
+        if len(sk) == 2:
+            # K = alpha_dB_per_m / (20/ln 10 * sqrt(pi f)): the neper-decibel relation (NIST SP 811)
+            # with |H| = exp(-K l sqrt(pi f)) (units.h)
+            k = 6.6 / 100.0 / (20.0 / math.log(10.0)) / math.sqrt(math.pi * 1e8)
+            got = sk[0].get("skin_loss_s05_per_m")
+            check(got is not None and abs(got - k) < 1e-9 * k,
+                  "skin_loss 6.6 dB/100 m @ 100 MHz is K = %.6g (got %r)" % (k, got))
+            check(sk[0].get("skin_loss_estimated") is False and sk[1].get("skin_loss_estimated") is True,
+                  "skin_loss: estimate asks for the estimate (%r %r)"
+                  % (sk[0].get("skin_loss_estimated"), sk[1].get("skin_loss_estimated")))
+            for o, text in zip(sk, ["6.6 dB/100 m @ 100 MHz", "estimate"]):
+                rc, so, se = run(["locate", "legs/a.wav", "--pulse-channel", "2", "--tension", "20 kN",
+                                  "--mass-per-length", "1.25 kg/m", "--skin-loss", text, "--json", "-"],
+                                 tmp)
+                check(rc == 0 and strip(o) == json.loads(so) if rc == 0 else False,
+                      "survey skin_loss %r equals locate --skin-loss (%d %s)" % (text, rc, se))
+        with open(os.path.join(tmp, "badskin.yaml"), "w") as f:
+            f.write("lines:\n  - recording: legs/a.wav\n    speed: 100\n    skin_loss: 6.6 dB/100 m\n")
+        rc, _, se = run(["survey", "badskin.yaml"], tmp)
+        check(rc == 3 and "badskin.yaml:4:16: skin_loss:" in se and "frequency" in se,
+              "a skin_loss without its frequency is refused with FILE:LINE:COLUMN, exit 3 (%d %s)" % (rc, se))
+        with open(os.path.join(tmp, "badskin2.yaml"), "w") as f:
+            f.write("lines:\n  - recording: legs/a.wav\n    speed: 100\n    skin_loss: lots\n")
+        rc, _, se = run(["survey", "badskin2.yaml"], tmp)
+        check(rc == 3 and "badskin2.yaml:4:16: skin_loss:" in se,
+              "a skin_loss that is not a value is refused with FILE:LINE:COLUMN, exit 3 (%d %s)" % (rc, se))
+
+        # taps 3 s apart on a line ringing far longer (source end +0.8, fixed end at 100 m): the
+        # summary table notes the overlap
+        rc, _, se = run(["simulate", "--pulse", "hann:20ms", "--rate", "2000", "--duration", "12",
+                         "--tension", "100 kN", "--mass-per-length", "5 kg/m", "--source-end", "0.8",
+                         "--end", "100m:fixed", "--shots", "3", "--interval", "3", "--noise", "0.01",
+                         "--seed", "3", "-o", "legs/taps.wav", "--quiet"], tmp)
+        check(rc == 0, "simulate taps (%s)" % se)
+        with open(os.path.join(tmp, "taps.yaml"), "w") as f:
+            f.write("lines:\n  - name: Taps\n    recording: legs/taps.wav\n    pulse_channel: 2\n"
+                    "    tension: 100 kN\n    mass_per_length: 5 kg/m\n    source_end: 0.8\n"
+                    "  - name: Guy A\n    recording: legs/a.wav\n    pulse_channel: 2\n"
+                    "    tension: 20 kN\n    mass_per_length: 1.25 kg/m\n")
+        rc, so, se = run(["survey", "taps.yaml"], tmp)
+        rows = [l for l in so.splitlines() if l.startswith(" Taps ") or l.startswith(" Guy A ")]
+        check(rc == 0 and len(rows) == 2 and rows[0].endswith("no baseline; taps overlap")
+              and "taps overlap" not in rows[1],
+              "the summary notes the overlapping taps on that line only (%d %r)" % (rc, rows))
     finally:
         shutil.rmtree(tmp, ignore_errors=True)
     print("test_survey: %d of %d checks failed" % (failures, checks) if failures

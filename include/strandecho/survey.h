@@ -48,6 +48,9 @@ typedef struct se_survey_line {
     double source_reflection;   /* from source_end (observed convention) */
     double false_alarms;        /* default 0.01 */
     double confidence;          /* default 0.95 */
+    double skin_k_s05_per_m;    /* skin-effect loss K, s^0.5/m, for se_locate_config (key
+                                   skin_loss, parsed by se_skin_loss_parse): 0 none (default),
+                                   NaN estimate from the echoes' shapes ("estimate") */
 } se_survey_line;
 
 typedef struct se_survey {

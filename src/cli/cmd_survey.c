@@ -317,6 +317,10 @@ int se_cmd_survey(int argc, char **argv)
                 size_t len = strlen(note);
                 snprintf(note + len, sizeof note - len, "; END NOT FOUND");
             }
+            if (it->result.shots_overlap) { /* the warning itself is in the report and the JSON */
+                size_t len = strlen(note);
+                snprintf(note + len, sizeof note - len, "; taps overlap");
+            }
             printf(" %-18.18s %-26.26s %6zu %8zu %10s  %s\n", sl->name, rec, it->result.n_events, prim,
                    far, note);
             if (c.verbose)

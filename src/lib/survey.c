@@ -137,7 +137,7 @@ static se_status se_sp_path(const se_sp *p, const yaml_node_t *node, const char 
 static const char *const se_line_keys[] = {
     "name", "line", "recording", "recordings", "baseline", "baseline_date", "channel", "pulse_channel", "pulse",
     "quantity", "speed", "velocity_factor", "tension", "mass_per_length", "axial_stiffness",
-    "speed_uncertainty", "source_end", "false_alarms", "confidence", NULL};
+    "speed_uncertainty", "source_end", "false_alarms", "confidence", "skin_loss", NULL};
 
 static se_status se_sp_line(const se_sp *p, const yaml_node_t *map, size_t index, se_survey_line *l)
 {
@@ -155,6 +155,7 @@ static se_status se_sp_line(const se_sp *p, const yaml_node_t *map, size_t index
     l->channel = 1;
     l->false_alarms = 0.01;
     l->confidence = 0.95;
+    l->skin_k_s05_per_m = 0.0;
     l->quantity = SE_Q_VELOCITY;
     l->tension_n = l->mass_per_length_kg_m = l->axial_stiffness_n = l->velocity_factor = NAN;
     if ((n = se_sp_get(p, map, "name")) != NULL) {
@@ -359,6 +360,15 @@ static se_status se_sp_line(const se_sp *p, const yaml_node_t *map, size_t index
         l->confidence = strtod(v, &end);
         if (end == v || *end != '\0' || !(l->confidence > 0.0 && l->confidence < 1.0))
             return se_sp_fail(p, n, SE_ERR_RANGE, "confidence '%s' is not a number in (0, 1)", v);
+    }
+    if ((n = se_sp_get(p, map, "skin_loss")) != NULL) {
+        /* K in s^0.5/m, a datasheet attenuation, or "estimate" (as locate --skin-loss) */
+        if ((st = se_sp_text(p, n, "skin_loss", &v)) != SE_OK)
+            return st;
+        if (strcmp(v, "estimate") == 0)
+            l->skin_k_s05_per_m = NAN;
+        else if (se_skin_loss_parse(v, &l->skin_k_s05_per_m, p->err) != SE_OK)
+            return se_sp_fail(p, n, SE_ERR_FORMAT, "skin_loss: %s (or 'estimate')", p->err->message);
     }
     return SE_OK;
 }
@@ -626,6 +636,7 @@ static se_status se_survey_locate(se_runner *r, const se_survey_line *sl, const 
     cfg.false_alarms = sl->false_alarms;
     cfg.confidence = sl->confidence;
     cfg.source_reflection = sl->source_reflection;
+    cfg.skin_k_s05_per_m = sl->skin_k_s05_per_m;
     if (line != NULL) {
         cfg.quantity = line->quantity;
         cfg.source_reflection = line->source_end_r;
