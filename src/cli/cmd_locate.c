@@ -325,6 +325,11 @@ int se_cmd_locate(int argc, char **argv)
         cfg.quantity = line->quantity;
         cfg.source_reflection = line->source_end_r;
         cfg.map = se_line_distmap(line);
+        /* the line file's skin loss (length-weighted mean K), unless --skin-loss overrides it */
+        if (skin_text == NULL && se_line_skin_loss(line, &cfg.skin_k_s05_per_m, &err) != SE_OK) {
+            se_line_free(line);
+            return se_cli_fail_err(&err, 0);
+        }
         if (se_line_expected_events(line, &exp, &nexp, &err) != SE_OK) {
             se_line_free(line);
             return se_cli_fail_err(&err, 0);
@@ -527,11 +532,13 @@ static void se_print_table(const se_locate_result *res, const se_recording *rec,
     const char *u = feet ? "ft" : "m";
     size_t i, nmult = 0, nprev = 0;
     int fold;
+    const char *tunit = res->electrical ? "us" : "ms";
+    const double tscale = res->electrical ? 1e6 : 1e3;
     printf("strandecho %s  %s  (%s, %.10g Hz, %u channel%s, %.6g s), response channel %u\n",
            se_version(), rec->path, rec->format, rec->rate, rec->channels,
            rec->channels == 1 ? "" : "s", (double)rec->frames / rec->rate, ch);
-    printf("reference: %s, %zu samples (%.4g ms); quantity: %s; %s line\n", refdesc,
-           res->reference_length, 1e3 * (double)res->reference_length / res->rate_hz,
+    printf("reference: %s, %zu samples (%.4g %s); quantity: %s; %s line\n", refdesc,
+           res->reference_length, tscale * (double)res->reference_length / res->rate_hz, tunit,
            se_quantity_name(res->quantity), res->electrical ? "electrical" : "mechanical");
     if (line != NULL)
         printf("line: %s (%s), %zu segment%s, %.2f %s, source end %s, far end %s\n",
@@ -539,9 +546,10 @@ static void se_print_table(const se_locate_result *res, const se_recording *rec,
                line->n_segments == 1 ? "" : "s", line->length_m * k, u, line->source_end_name,
                line->end_name);
     printf("\n");
-    printf(" #  distance (%s)  +/- (%s, %.0f %%)  delay (ms)  polarity  impedance  class       "
+    /* delays in ms on mechanical lines, in us on cables (whose round trips are microseconds) */
+    printf(" #  distance (%s)  +/- (%s, %.0f %%)  delay (%s)  polarity  impedance  class       "
            "reflection  SNR (dB)%s\n",
-           u, u, conf * 100.0, line != NULL ? "  expected" : "");
+           u, u, conf * 100.0, tunit, line != NULL ? "  expected" : "");
     /* A ringing line gives many more multiples than reflectors: past a handful the table lists
      * the reflections only (as a surveyor describes the line) and counts the rest; --verbose,
      * the JSON and the CSV have every event. */
@@ -572,7 +580,7 @@ static void se_print_table(const se_locate_result *res, const se_recording *rec,
         if (ev->clipped || res->direct_clipped)
             snprintf(note + strlen(note), sizeof note - strlen(note), "  clipped");
         printf("%2zu  %13.3f  %14.3f  %10.3f  %-8s  %-9s  %-10s  %+10.3f  %8.1f%s\n", i + 1,
-               ev->distance_m * k, ev->distance_uncertainty_m * k, ev->delay_s * 1e3,
+               ev->distance_m * k, ev->distance_uncertainty_m * k, ev->delay_s * tscale,
                se_event_polarity(ev), se_event_impedance(ev), se_event_class(res, ev), ev->reflection,
                ev->snr_db, note);
     }
@@ -591,6 +599,10 @@ static void se_print_table(const se_locate_result *res, const se_recording *rec,
             continue;
         if (x->round_trip_s > res->record_range_s)
             printf("not reached: %s at %.3f %s (beyond the record)\n", x->name, x->distance_m * k, u);
+        else if (x->has_reflection && !(fabs(x->amplitude) >= res->threshold))
+            printf("not seen: %s at %.3f %s (expected %+.3f at the sensor, below the threshold "
+                   "%.3g)\n",
+                   x->name, x->distance_m * k, u, x->amplitude, res->threshold);
         else if (x->has_reflection)
             printf("MISSING: %s at %.3f %s (expected %+.3f at the sensor)\n", x->name,
                    x->distance_m * k, u, x->amplitude);
@@ -658,8 +670,8 @@ static void se_print_table(const se_locate_result *res, const se_recording *rec,
         printf("inside the dead zone (low confidence): %s echo at %.3f %s, reflection %+.3f\n",
                se_event_class(res, &res->dead_zone_events[i]),
                res->dead_zone_events[i].distance_m * k, u, res->dead_zone_events[i].reflection);
-    printf("dead zone %.3f %s (%.4g ms), resolution %.3f %s, record reaches %.1f %s\n",
-           res->dead_zone_m * k, u, res->dead_zone_s * 1e3, res->resolution_m * k, u,
+    printf("dead zone %.3f %s (%.4g %s), resolution %.3f %s, record reaches %.1f %s\n",
+           res->dead_zone_m * k, u, res->dead_zone_s * tscale, tunit, res->resolution_m * k, u,
            res->record_range_m * k, u);
     if (verbose)
         printf("direct arrival at %.9g s, amplitude %.6g; RMS bandwidth %.6g Hz\n", res->t0_s,

@@ -729,6 +729,12 @@ int se_cmd_simulate(int argc, char **argv)
                          (size_t)1 << 31);
         goto done;
     }
+    if (rec.rate_hz > 1e9) {
+        rc = se_cli_fail(SE_EXIT_USAGE, "simulate: --rate %g Hz is above the simulator's limit of "
+                                        "1 GHz",
+                         rec.rate_hz);
+        goto done;
+    }
     frames = se_sim_frames(&rec);
     if (frames < 2) {
         rc = se_cli_fail(SE_EXIT_USAGE, "simulate: %g s at %g Hz gives fewer than 2 samples",
