@@ -271,8 +271,10 @@ static void check_new_fields(void)
     CHECK(strstr(html, "<p>Attenuation of the line: 0.0123 \xc2\xb1 0.0011 dB/m one way (one standard "
                        "uncertainty), estimated from the decay of the end&#39;s repeats (3 arrivals of the end&#39;s "
                        "echo fitted), a full reflection at the end assumed (a fixed or free end, or a break; a weaker "
-                       "reflection there would be counted as loss). The reflections in the findings table are as seen "
-                       "at the sensor, with this loss not removed.</p>") != NULL);
+                       "reflection there would be counted as loss). The reflections in the findings table do not have "
+                       "this attenuation removed.</p>") != NULL);
+    CHECK(strstr(html, "are not corrected for losses along the line, except that those matched with the loss-shaped "
+                       "pulse have the skin-effect loss removed.</p>") != NULL);
     /* the skin-effect loss: dB per 100 m at 100 MHz from alpha = K sqrt(pi f) Np/m and 20 / ln 10 dB
      * per neper (the neper-decibel relation, NIST SP 811; the conversion of units.h) */
     db = 20.0 / log(10.0) * 4.3e-7 * 100.0 * sqrt(3.14159265358979323846 * 1e8);
@@ -316,6 +318,7 @@ static void check_new_fields(void)
         CHECK(strstr(html, "Measurement warning") == NULL && strstr(html, "Taps closer together") == NULL);
         CHECK(strstr(html, "<p>Attenuation of the line: 0.002 dB/m one way, as given for this run. The reflections") !=
               NULL);
+        CHECK(strstr(html, "are not corrected for losses along the line, except that") != NULL); /* 1000 m */
         snprintf(want, sizeof want, "<p>Skin-effect loss of the cable: K = 4.3e-07 s^0.5/m, as given for this run; "
                                     "equivalent to %.3g dB per 100 m at 100 MHz. It smears", db);
         CHECK(strstr(html, want) != NULL);
@@ -340,13 +343,27 @@ static void check_new_fields(void)
         CHECK(strstr(html, "<tr><th scope=\"row\">skin-effect loss</th><td>none (not modelled)</td></tr>") != NULL);
         free(html);
     }
+    /* K estimated as 0 (the echoes' shapes show no loss): no conversion, no smearing sentence */
+    g.res.skin_k_estimated = 1;
+    g.res.skin_fit_echoes = 2;
+    html = se_report_html(&gr, &err);
+    CHECK(html != NULL);
+    if (html != NULL) {
+        CHECK(strstr(html, "<p>Skin-effect loss of the cable: estimated from the shapes of 2 echoes: none seen (K = 0 "
+                           "s^0.5/m); the echoes were matched with the undistorted pulse.</p>") != NULL);
+        CHECK(strstr(html, "dB per 100 m") == NULL && strstr(html, "&amp;ndash;") == NULL);
+        free(html);
+    }
+    g.res.skin_k_estimated = 0;
     /* nothing known: no losses section, the parameter says so */
     g.res.attenuation_method = SE_ATTEN_NONE;
     g.res.attenuation_db_per_m = NAN;
+    g.ev[4].skin_corrected = 0;
     html = se_report_html(&gr, &err);
     CHECK(html != NULL);
     if (html != NULL) {
         CHECK(strstr(html, "Losses along the line") == NULL);
+        CHECK(strstr(html, "are not corrected for losses along the line.</p>") != NULL);
         CHECK(strstr(html, "<tr><th scope=\"row\">attenuation</th><td>not known: none was given and none could be "
                            "estimated from this recording</td></tr>") != NULL);
         free(html);

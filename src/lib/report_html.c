@@ -293,11 +293,19 @@ static void se_skin_text(se_rb *b, const se_locate_result *res, char *out, size_
     out[0] = '\0';
     if (!(k > 0.0) && !res->skin_k_estimated)
         return;
-    if (res->skin_k_estimated) {
+    if (res->skin_k_estimated && !(k > 0.0 && isfinite(k))) {
+        /* nothing to convert: the echoes' shapes show no loss (or none could be told) */
+        snprintf(out, size, "estimated from the shapes of %zu echo%s: %s", res->skin_fit_echoes,
+                 res->skin_fit_echoes == 1 ? "" : "es",
+                 k == 0.0 ? "none seen (K = 0 s^0.5/m)" : "it could not be estimated");
+    } else if (res->skin_k_estimated) {
         char pm[64] = "";
         if (isfinite(res->skin_k_uncertainty) && res->skin_k_uncertainty > 0.0)
-            snprintf(pm, sizeof pm, " \xc2\xb1 %s", se_rb_g(b, res->skin_k_uncertainty, 2));
-        snprintf(out, size, "K = %s%s s^0.5/m (one standard uncertainty), estimated from the shapes of %zu "
+            snprintf(pm, sizeof pm, " \xc2\xb1 %s s^0.5/m (one standard uncertainty)",
+                     se_rb_g(b, res->skin_k_uncertainty, 2));
+        else
+            snprintf(pm, sizeof pm, " s^0.5/m");
+        snprintf(out, size, "K = %s%s, estimated from the shapes of %zu "
                             "echo%s; equivalent to %s dB per 100 m at 100 MHz with all of the cable's loss taken as "
                             "skin-effect (conductor) loss",
                  se_rb_g(b, k, 3), pm, res->skin_fit_echoes, res->skin_fit_echoes == 1 ? "" : "es",
@@ -323,14 +331,17 @@ static void se_report_losses(se_rb *b, const se_locate_result *res)
         se_attenuation_text(b, res, a, sizeof a);
         se_rb_add(b, "<p>Attenuation of the line: ");
         se_rb_esc(b, a);
-        se_rb_add(b, ". The reflections in the findings table are as seen at the sensor, with this loss not "
-                     "removed.</p>\n");
+        se_rb_add(b, ". The reflections in the findings table do not have this attenuation removed.</p>\n");
     }
     if (t[0] != '\0') {
         for (i = 0; i < res->n_events; i++)
             ncorr += res->events[i].skin_corrected != 0;
         se_rb_add(b, "<p>Skin-effect loss of the cable: ");
         se_rb_esc(b, t);
+        if (!(res->skin_k_s05_per_m > 0.0 && isfinite(res->skin_k_s05_per_m))) {
+            se_rb_add(b, "; the echoes were matched with the undistorted pulse.</p>\n");
+            return;
+        }
         se_rb_printf(b, ". It smears each echo more the farther it travels; a match with the undistorted pulse "
                         "would place such echoes late and split them into several peaks. So each echo was matched "
                         "with the pulse shape this loss gives it: %zu event%s matched so (marked in the findings "
@@ -824,8 +835,18 @@ static se_status se_report_section(se_rb *b, const se_report *r, size_t index, s
                      "wrong speed moves every distance in proportion.");
     se_rb_printf(b, " Reflections closer together than the resolution (%s) may merge; nothing is searched within the "
                     "dead zone (%s) of the sensor. Reflection coefficients carry one standard uncertainty and are not "
-                    "corrected for losses along the line.</p>\n",
+                    "corrected for losses along the line",
                  se_rb_dist(b, res->resolution_m, 2), se_rb_dist(b, res->dead_zone_m, 2));
+    {
+        size_t ncorr = 0;
+        for (i = 0; i < res->n_events; i++)
+            ncorr += res->events[i].skin_corrected != 0;
+        /* a loss-shaped template's amplitude has the skin-effect loss's shape removed (docs/json.md) */
+        if (ncorr > 0)
+            se_rb_add(b, ", except that those matched with the loss-shaped pulse have the skin-effect loss "
+                         "removed");
+    }
+    se_rb_add(b, ".</p>\n");
 
     /* Inputs. */
     se_rb_add(b, "<h3>Input files</h3>\n<table><thead><tr><th>File</th><th>Role</th><th>SHA-256</th></tr></thead>"
