@@ -7,7 +7,13 @@
  *
  * A line whose finding may be a fault (a change since the baseline that is not secondary, an
  * unexpected reflection, a missing end) is flagged in the summary and its section by the words
- * "Possible fault" in a framed badge with a warning-triangle shape, not by colour alone.
+ * "Possible fault" in a framed badge with a warning-triangle shape, not by colour alone. Taps
+ * closer together than the line's ring-down (se_locate_result.shots_overlap) get the same badge
+ * with the words "Measurement warning" and the locator's sentence (se_locate_overlap_warning) in
+ * the line's findings, and a bold note in its summary row: not a fault, so the row is not flagged.
+ * The section also words an earlier tap's echo (previous_shot), a primary's predicted multiple
+ * share, events matched with loss-shaped templates, and the losses (attenuation and how it was
+ * obtained, skin-effect K with its dB per 100 m at 100 MHz); docs/report.md quotes the sentences.
  *
  * Every string from the user (names, notes, file paths, parameter values) is HTML-escaped. The
  * report reads no clock and no environment: the same inputs give the same bytes (a date is shown
