@@ -92,6 +92,107 @@ se_status se_stack_shots(const double *x, size_t n, const se_stack_config *cfg, 
                          se_error *err);
 void se_stack_result_free(se_stack_result *res);
 
+/* ---- The pieces se_stack_shots is made of, for a caller that sees the record in blocks (the
+ * streaming locate, stream.h). Each gives bit for bit what se_stack_shots computes inside. ---- */
+
+/* Trigger search on the matched filter r of the source channel with the pulse (se_xcorr_run, all n
+ * lags), fed in consecutive pieces. Keeps the local maxima of +r and -r that reach trigger_fraction
+ * of the largest |r| seen so far (so at most a few per shot in practice: 16 bytes each). */
+typedef struct se_shot_finder se_shot_finder;
+/* n: lags of r (the record's length); pulse_length: m (lags from n - m + 1 on are not triggers);
+ * cfg: min_interval and trigger_fraction as se_stack_config (0 = defaults). NULL on failure. */
+se_shot_finder *se_shot_finder_create(size_t n, size_t pulse_length, const se_stack_config *cfg,
+                                      se_error *err);
+/* The next count values of r (r[lag], lag continuing from the previous call). Errors: more than n
+ * values in all (SE_ERR_ARG), allocation. */
+se_status se_shot_finder_push(se_shot_finder *f, const double *r, size_t count, se_error *err);
+/* After all n values: the triggers (integer lags, ascending) into *idx [size: *k, malloc'd, caller
+ * frees], the greedy thinning to min_interval and the rejection of echoes of stronger shots done.
+ * Errors: fewer than n values pushed (SE_ERR_ARG); no trigger at all (SE_ERR_NOTFOUND);
+ * allocation. */
+se_status se_shot_finder_finish(se_shot_finder *f, size_t **idx, size_t *k, se_error *err);
+void se_shot_finder_destroy(se_shot_finder *f);
+
+/* Segment layout from the refined onsets [size: k >= 2] of a record of n samples: *pre (cfg's pre,
+ * SIZE_MAX = pulse_length, lowered to the earliest onset) and *len (the median interval, shortened
+ * for a last shot cut by the end, at least 128, at most n). Error: allocation. */
+se_status se_stack_layout(const double *onsets, size_t k, size_t n, size_t pre_in,
+                          size_t pulse_length, size_t *pre, size_t *len, se_error *err);
+
+/* Screening before alignment: status[i] = SE_SHOT_LATE when the segment [floor(onset) - pre,
+ * + len + 1) runs past n, else SE_SHOT_CLIPPED when clipped[i] (the caller's test of that span
+ * for runs of 5 or more samples at the record's extremes), else SE_SHOT_AMPLITUDE when
+ * |amplitude| is off the median |amplitude| by more than 1.5x, else SE_SHOT_USED. Error:
+ * allocation. */
+se_status se_stack_screen(const double *onsets, const double *amplitudes, const unsigned char *clipped,
+                          size_t k, size_t n, size_t pre, size_t len, se_shot_status *status,
+                          se_error *err);
+
+/* Samples of the record an alignment reads: [*begin, *end) (clipped to [0, n)). */
+void se_stack_align_span(double onset, size_t pre, size_t len, size_t n, size_t *begin, size_t *end);
+/* out [size: len] = x(onset - pre + j) by the phase ramp (as se_stack_shots aligns), where xw
+ * [size: nw] holds samples off .. off + nw - 1 of a record of n samples and covers
+ * se_stack_align_span. Errors: a window that does not cover the span (SE_ERR_ARG), allocation or
+ * FFT planning (SE_ERR_NOMEM). Plans FFTW transforms: one thread at a time. */
+se_status se_stack_align(const double *xw, size_t off, size_t nw, size_t n, double onset, size_t pre,
+                         size_t len, double *out, se_error *err);
+
+/* Misfit of the candidates (status SE_SHOT_USED) to their sample-wise median, accumulated over
+ * lags in order: seg [size: k w] holds lags j0 .. j0 + w - 1 of every shot's aligned segment (row
+ * i, rows of other shots unread); misfit [size: k] adds sum (seg - median)^2 to each candidate's
+ * entry, lag after lag (call for j0 = 0, then each next piece, to get se_stack_shots' sums).
+ * Needs 3 or more candidates to mean anything. Error: allocation. */
+se_status se_stack_misfit_part(const double *seg, size_t k, size_t w, const se_shot_status *status,
+                               double *misfit, se_error *err);
+/* Marks SE_SHOT_MISFIT the candidates whose misfit exceeds 3 times the median misfit (3 or more
+ * candidates; else nothing). Error: allocation. */
+se_status se_stack_misfit_screen(const double *misfit, size_t k, se_shot_status *status,
+                                 se_error *err);
+
+/* Stack accumulation for the used shots (status SE_SHOT_USED, after the misfit screen) of length
+ * len: the stack, the alternating-sign mean and the strided sample of the consecutive differences
+ * that the gain takes (se_noise_mad's positions over the (used - 1) len differences). */
+typedef struct se_stack_acc {
+    size_t len, k, nu, ne, stride, nd;
+    se_stack_mode mode;
+    double *stacked;   /* [size: len] owned */
+    double *alt;       /* [size: len] owned */
+    double *dsamp;     /* [size: nd] owned */
+    size_t *used;      /* [size: nu] indices of the used shots, owned */
+} se_stack_acc;
+/* Set up for the shots of status [size: k] (2 or more used). Error: fewer than 2 used
+ * (SE_ERR_ARG), allocation. */
+se_status se_stack_acc_init(se_stack_acc *a, const se_shot_status *status, size_t k, size_t len,
+                            se_stack_mode mode, se_error *err);
+/* Lags j0 .. j0 + w - 1 of the aligned segments, seg as for se_stack_misfit_part. Error:
+ * allocation. */
+se_status se_stack_acc_part(se_stack_acc *a, const double *seg, size_t j0, size_t w, se_error *err);
+/* Once every lag was added: noise_single, noise_stacked, gain_db and expected_gain_db into res
+ * (the other fields untouched). Error: from se_noise_mad. */
+se_status se_stack_acc_gain(const se_stack_acc *a, se_stack_result *res, se_error *err);
+void se_stack_acc_free(se_stack_acc *a);
+
+/* A stack made outside se_stack_shots (by the streaming locate) handed through se_locate, so that
+ * it locates on it as on its own stack: se_stack_given_init(&g) marks g, the caller fills the
+ * counts, and se_locate_config.pilot = se_stack_given_pilot(&g) with the stacked trace (n_used >= 2)
+ * or, when fewer than two shots were usable, the first usable (or first) shot's segment as the
+ * response, each followed by one extra sample (any finite value: se_locate then sees the record's
+ * length change, as after its own stacking). se_stack_shots then reports the given shots instead
+ * of searching: n_found, n_used, first_used, pre, onsets (copied), the gains, length = n - 1, and
+ * stacked = a copy of x[0, n - 1) (n_used >= 2), or every onset = pre (fewer: the segment, which
+ * se_locate_stack takes whole). The mark is a sentinel first value and g's own address; a real
+ * pilot cannot carry both. */
+#define SE_STACK_GIVEN_TAG (-0x1.5ec5ec5ec5ec5p+1001)
+typedef struct se_stack_given {
+    double tag;             /* SE_STACK_GIVEN_TAG */
+    const void *self;       /* &g */
+    size_t n_found, n_used, first_used, pre;
+    const double *onsets;   /* [size: n_found] (borrowed) */
+    double gain_db, expected_gain_db, noise_single, noise_stacked;
+} se_stack_given;
+void se_stack_given_init(se_stack_given *g);
+const double *se_stack_given_pilot(const se_stack_given *g);
+
 /* Name of a shot status ("used", "clipped", "amplitude", "late", "misfit"). */
 const char *se_shot_status_name(se_shot_status s);
 

@@ -58,6 +58,10 @@ typedef struct se_stream_config {
     const char *wisdom_path;  /* FFTW wisdom file (see se_xcorr_config), NULL = none */
     int measure;              /* 1: FFTW_MEASURE when the wisdom lacks the size (then the values
                                  differ from se_locate's ESTIMATE plans by rounding only) */
+    size_t stack_memory;      /* repeated shots: bytes for the aligned segments the outlier test
+                                 and the stack look at lag by lag (0 = 256 MiB); when the shots
+                                 times the interval need more, the segments are aligned again for
+                                 each part of the interval that fits (more passes, same result) */
 } se_stream_config;
 
 /* What the run read and did (filled as far as it got, also on failure). */
@@ -68,10 +72,20 @@ typedef struct se_stream_info {
     char format[48];          /* libsndfile's format name, e.g. "WAV float32" -> "WAV (Microsoft)" */
     unsigned passes;          /* correlation passes over the file (1; 2 without a known time base;
                                  one more when the pre-threshold proved too high, and one more
-                                 when the noise varies along the record, with noise tracking) */
+                                 when the noise varies along the record, with noise tracking;
+                                 with a pulse channel that may hold several shots, one for the
+                                 shot search on it, and then none more when they are stacked) */
+    unsigned stack_reads;     /* other reads of the file for repeated shots: the energy screen of
+                                 the pulse channel (1 with stacking on and a pulse channel), then,
+                                 when it may hold several shots, the clipping scan and one read of
+                                 the shots' spans per part of the interval (twice when the parts
+                                 are several, see stack_memory) */
     size_t windows;           /* candidate windows recomputed (those reaching the threshold) */
     size_t window_samples;    /* r samples recomputed in them */
     se_xcorr_plan plan;       /* how the FFT plans were made */
+    size_t shots[5];          /* repeated shots stacked on the stream: how many shots ended in each
+                                 se_shot_status (stack.h: used, clipped, amplitude, late, misfit);
+                                 all 0 when the record was located as a single shot */
 } se_stream_info;
 
 /* Defaults: channel 0, no pulse channel, auto block, 2 threads, 2^16 noise lags, no wisdom. */

@@ -19,6 +19,7 @@
 #include "internal.h"
 #include "strandecho/detect.h"
 #include "strandecho/distmap.h"
+#include "strandecho/stack.h"
 #include "strandecho/wave.h"
 
 #define SE_STREAM_NOISE_FLOOR 1e-4            /* as se_locate: 80 dB below the direct arrival */
@@ -154,6 +155,9 @@ static se_status se_pass(se_sl *s, se_src *src, const se_xcorr *xc, se_xcorr_wor
 static void se_sl_reset(se_sl *s);
 static se_status se_sl_direct(se_sl *s, se_error *err);
 static se_status se_prep_run(void *ctx, se_error *err);
+static se_status se_stream_stack(se_src *src, size_t n, int pilot_ch, const se_locate_config *cfg,
+                                 double rate, size_t block, size_t budget, se_locate_result *res,
+                                 int *stacked, se_stream_info *info, se_error *err);
 static void *se_wjob_fetch(void *arg);
 static int se_peak_by_size(const void *a, const void *b);
 static int se_peak_by_lag(const void *a, const void *b);
@@ -1454,6 +1458,15 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
         goto done;
     }
     memcpy(ref, cfg.reference, m * sizeof *ref);
+    /* Repeated shots: found and stacked in passes of their own, then located on the stack. */
+    if (cfg.stacking != SE_STACKING_OFF) {
+        int stacked = 0;
+        st = se_stream_stack(&src, n, scfg.pulse_channel, &cfg, info->rate, scfg.block,
+                             scfg.stack_memory, res, &stacked, info, err);
+        if (st != SE_OK || stacked)
+            goto done;
+        memset(res, 0, sizeof *res);
+    }
     map = cfg.map;
     if (map == NULL) {
         own_map = se_distmap_create_uniform(cfg.speed_m_s, cfg.speed_uncertainty, INFINITY, err);
@@ -1761,5 +1774,499 @@ done:
         sf_close(snd);
     if (st != SE_OK)
         se_locate_result_free(res);
+    return st;
+}
+
+/* ---- Repeated shots on the stream ----
+ * Pass 1 reads the whole file once: the trigger channel (the pulse channel, else the response)
+ * is correlated with the reference chunk by chunk (se_xcorr_run_part on chunks at multiples of
+ * the step: se_stack_shots' values bit for bit) into se_shot_finder; the response is checked for
+ * non-finite samples and its extremes are kept. Each trigger's r is then recomputed around it
+ * (2^17 + 8 lags each side: se_refine_peak's largest window and its uphill steps) and refined.
+ * Pass 2 reads the response for its runs of clipped samples (se_locate's se_find_clipping, and
+ * the shots' clipping test). Then, for each part of the interval whose aligned segments fit in
+ * the memory budget, every candidate's span is read back (se_stack_align_span) and aligned, and
+ * se_stack_misfit_part / se_stack_acc_part take the part: lag by lag what se_stack_shots does on
+ * its whole matrix. se_locate finally runs on the stack (or on the one usable shot's segment) as
+ * its own se_locate_stack would have left it: through se_stack_given. */
+
+#define SE_STREAM_STACK_MEMORY ((size_t)256 << 20)
+#define SE_STREAM_REFINE_HALF (((size_t)1 << 17) + 8)
+
+/* A maximal run [b, e) of equal samples at an extreme of the response. */
+typedef struct se_xrun {
+    size_t b, e;
+} se_xrun;
+
+/* r[a, e) of the trigger channel (src->ch) into *out (malloc'd), bit for bit the pass's values. */
+static se_status se_stack_rwin(se_src *src, const se_xcorr *xc, se_xcorr_work *w, size_t n,
+                               size_t m, size_t a, size_t e, double **out, size_t *a_out,
+                               se_error *err)
+{
+    size_t step = se_xcorr_step(xc), c = a / step * step, nout = e - c, nx;
+    double *x;
+    se_status st;
+    *a_out = c;
+    nx = c + nout + m - 1 < n ? nout + m - 1 : n - c;
+    x = malloc(nx * sizeof *x);
+    *out = malloc(nout * sizeof **out);
+    if (x == NULL || *out == NULL) {
+        free(x);
+        free(*out);
+        *out = NULL;
+        return se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate %zu lags around a shot", nout);
+    }
+    st = se_read_range(src, c, nx, x, err);
+    if (st == SE_OK)
+        st = se_xcorr_run_part(xc, w, x, nx, nout, *out, err);
+    free(x);
+    if (st != SE_OK) {
+        free(*out);
+        *out = NULL;
+    }
+    *a_out = c;
+    return st;
+}
+
+/* Rows [size: k w] of lags j0 .. j0 + w - 1 of the aligned segments of the shots whose status is
+ * SE_SHOT_USED, read back from the response. */
+static se_status se_stack_fill(se_src *src, size_t n, const double *onsets, const se_shot_status *status,
+                               size_t k, size_t pre, size_t len, size_t j0, size_t w, double *rows,
+                               double *xw, double *seg, se_error *err)
+{
+    size_t i, b, e;
+    se_status st;
+    for (i = 0; i < k; i++) {
+        if (status[i] != SE_SHOT_USED)
+            continue;
+        se_stack_align_span(onsets[i], pre, len, n, &b, &e);
+        if (e > b && (st = se_read_range(src, b, e - b, xw, err)) != SE_OK)
+            return st;
+        if ((st = se_stack_align(xw, b, e - b, n, onsets[i], pre, len, seg, err)) != SE_OK)
+            return st;
+        memcpy(rows + i * w, seg + j0, w * sizeof *seg);
+    }
+    return SE_OK;
+}
+
+static se_status se_stream_stack(se_src *src_in, size_t n, int pilot_ch, const se_locate_config *cfg,
+                                 double rate, size_t block, size_t budget, se_locate_result *res,
+                                 int *stacked, se_stream_info *info, se_error *err)
+{
+    const size_t m = cfg->reference_length;
+    const int have_pilot = pilot_ch != SE_STREAM_NO_CHANNEL;
+    const unsigned nch = src_in->nch, rch = src_in->ch;
+    const unsigned tch = have_pilot ? (unsigned)pilot_ch : rch;
+    se_src tsrc = *src_in, rsrc = *src_in;
+    se_xcorr *xc = NULL;
+    se_xcorr_work *xw = NULL;
+    se_shot_finder *fd = NULL;
+    se_stack_config sc;
+    se_stack_acc acc;
+    se_stack_given given;
+    se_stack_result sr;
+    se_locate_config lc;
+    se_xrun *runs = NULL;
+    size_t nruns = 0, capruns = 0, *idx = NULL, k = 0, i, j, step, B, pre = 0, len = 0, nu;
+    size_t first = SIZE_MAX, clipped_samples = 0, first_clipped = SIZE_MAX;
+    double *inter = NULL, *tx = NULL, *rw = NULL, *rows = NULL, *xwin = NULL, *segbuf = NULL;
+    double *misfit = NULL, *x2 = NULL, vmax = 0.0, vmin = 0.0;
+    unsigned char *clip = NULL;
+    se_status st = SE_OK;
+
+    *stacked = 0;
+    memset(&acc, 0, sizeof acc);
+    memset(&sr, 0, sizeof sr);
+    tsrc.ch = tch;
+    rsrc.ch = rch;
+    if (!have_pilot || m < 3 || m >= n)
+        return SE_OK; /* not stacked on the stream (stream.h); se_locate does not stack then */
+    if (budget == 0)
+        budget = SE_STREAM_STACK_MEMORY;
+    se_stack_config_init(&sc);
+    sc.pulse = cfg->reference;
+    sc.pulse_length = m;
+    sc.mode = cfg->stacking == SE_STACKING_ROBUST ? SE_STACK_TRIMMED : SE_STACK_MEAN;
+    xc = se_xcorr_create(cfg->reference, m, 0, err); /* as se_stack_shots: ESTIMATE plans */
+    xw = xc ? se_xcorr_work_create(xc, err) : NULL;
+    fd = se_shot_finder_create(n, m, &sc, err);
+    if (xw == NULL || fd == NULL) {
+        st = err ? err->code : SE_ERR_NOMEM;
+        goto done;
+    }
+    step = se_xcorr_step(xc);
+    B = (block ? block : SE_STREAM_DEFAULT_BLOCK) / step * step; /* as the engine's chunks */
+    B = B < step ? step : B;
+
+    inter = malloc((size_t)SE_STREAM_READ_FRAMES * nch * sizeof *inter);
+    if (inter == NULL) {
+        st = se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate the shot search buffers");
+        goto done;
+    }
+    /* Pass 0, cheap: |r[k]| <= sqrt(E_x(k) / E_s) (Cauchy-Schwarz, E_x(k) the pilot's energy over
+     * [k, k + m)), and the largest |r| is at least r at the reference's own start, 1. When every
+     * lag where that bound reaches 0.9 of the trigger level lies within less than min_interval of
+     * the others, the search cannot find two shots: the record is located as a single shot. */
+    {
+        double es = 0.0, thr, frac = 0.5, e = 0.0, fx;
+        size_t pos = 0, kmin = SIZE_MAX, kmax = 0, hi = n - m + 1;
+        double *ring = malloc(m * sizeof *ring);
+        if (ring == NULL) {
+            st = se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate %zu samples", m);
+            goto done;
+        }
+        for (i = 0; i < m; i++)
+            es += cfg->reference[i] * cfg->reference[i];
+        thr = (0.9 * frac) * (0.9 * frac) * es;
+        if (sf_seek(src_in->snd, 0, SEEK_SET) != 0) {
+            free(ring);
+            st = se_fail(err, SE_ERR_IO, "%s: cannot seek to the start", src_in->path);
+            goto done;
+        }
+        info->stack_reads++;
+        /* E_x(k) is known once sample k + m - 1 is read (and for the last m - 1 lags, at the end) */
+        while (pos < n) {
+            size_t take = n - pos < SE_STREAM_READ_FRAMES ? n - pos : SE_STREAM_READ_FRAMES;
+            sf_count_t got = sf_readf_double(src_in->snd, inter, (sf_count_t)take);
+            if (got <= 0) {
+                free(ring);
+                st = se_fail(err, SE_ERR_FORMAT, "%s: truncated: file ends before frame %zu",
+                             src_in->path, pos + 1);
+                goto done;
+            }
+            for (j = 0; j < (size_t)got; j++) {
+                size_t t = pos + j;
+                fx = inter[j * nch + tch];
+                if (t >= m)
+                    e -= ring[t % m] * ring[t % m];
+                ring[t % m] = fx;
+                e += fx * fx;
+                if (t + 1 >= m) {
+                    size_t kk = t + 1 - m;
+                    if (kk < hi && !(fmax(e, 0.0) < thr)) {
+                        kmin = kmin == SIZE_MAX ? kk : kmin;
+                        kmax = kk;
+                    }
+                }
+            }
+            pos += (size_t)got;
+        }
+        free(ring);
+        if (kmin == SIZE_MAX || kmax - kmin < 4 * m)
+            goto done;
+    }
+
+    /* Pass 1: the trigger channel's r, the response's finiteness and extremes. */
+    tx = malloc((B + m - 1) * sizeof *tx);
+    rw = malloc(B * sizeof *rw);
+    if (tx == NULL || rw == NULL) {
+        st = se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate the shot search buffers");
+        goto done;
+    }
+    if (sf_seek(src_in->snd, 0, SEEK_SET) != 0) {
+        st = se_fail(err, SE_ERR_IO, "%s: cannot seek to the start", src_in->path);
+        goto done;
+    }
+    info->passes++;
+    {
+        size_t pos = 0, c = 0, have = 0; /* tx holds trigger samples c .. c + have - 1 */
+        while (pos < n) {
+            size_t take = n - pos < SE_STREAM_READ_FRAMES ? n - pos : SE_STREAM_READ_FRAMES;
+            sf_count_t got = sf_readf_double(src_in->snd, inter, (sf_count_t)take);
+            if (got <= 0) {
+                st = se_fail(err, SE_ERR_FORMAT, "%s: truncated: file ends before frame %zu",
+                             src_in->path, pos + 1);
+                goto done;
+            }
+            for (j = 0; j < (size_t)got; j++) {
+                double v = inter[j * nch + rch], t = inter[j * nch + tch];
+                if (!isfinite(v) || !isfinite(t)) {
+                    st = se_fail(err, SE_ERR_DATA, "%s: sample %zu (channel %u) is not finite",
+                                 src_in->path, pos + j, (isfinite(v) ? tch : rch) + 1);
+                    goto done;
+                }
+                if (pos + j == 0)
+                    vmax = vmin = v;
+                vmax = fmax(vmax, v);
+                vmin = fmin(vmin, v);
+                tx[have++] = t;
+                if (have == B + m - 1) { /* chunk c .. c + B - 1 complete */
+                    if ((st = se_xcorr_run_part(xc, xw, tx, have, B, rw, err)) != SE_OK ||
+                        (st = se_shot_finder_push(fd, rw, B, err)) != SE_OK)
+                        goto done;
+                    memmove(tx, tx + B, (m - 1) * sizeof *tx);
+                    have = m - 1;
+                    c += B;
+                }
+            }
+            pos += (size_t)got;
+        }
+        while (c < n) { /* the rest, x taken as 0 beyond the end */
+            size_t nout = n - c < B ? n - c : B;
+            if ((st = se_xcorr_run_part(xc, xw, tx, have, nout, rw, err)) != SE_OK ||
+                (st = se_shot_finder_push(fd, rw, nout, err)) != SE_OK)
+                goto done;
+            if (have > B) {
+                memmove(tx, tx + B, (have - B) * sizeof *tx);
+                have -= B;
+            } else {
+                have = 0;
+            }
+            c += nout;
+        }
+    }
+    if (vmax == vmin)
+        goto done; /* constant: the single-shot engine says so, as se_locate does first */
+    st = se_shot_finder_finish(fd, &idx, &k, err);
+    if (st == SE_ERR_NOTFOUND) { /* no trigger: se_locate goes on unstacked */
+        se_error_clear(err);
+        st = SE_OK;
+        goto done;
+    }
+    if (st != SE_OK)
+        goto done;
+    if (k < 2)
+        goto done;
+
+    /* Refinement of each trigger on its recomputed neighbourhood. */
+    sr.n_found = k;
+    sr.onsets = se_calloc(k, sizeof *sr.onsets, "shots", err);
+    sr.amplitudes = se_calloc(k, sizeof *sr.amplitudes, "shots", err);
+    sr.status = se_calloc(k, sizeof *sr.status, "shots", err);
+    clip = se_calloc(k, sizeof *clip, "shots", err);
+    misfit = se_calloc(k, sizeof *misfit, "shots", err);
+    if (sr.onsets == NULL || sr.amplitudes == NULL || sr.status == NULL || clip == NULL ||
+        misfit == NULL) {
+        st = SE_ERR_NOMEM;
+        goto done;
+    }
+    for (i = 0; i < k; i++) {
+        size_t a = idx[i] > SE_STREAM_REFINE_HALF ? idx[i] - SE_STREAM_REFINE_HALF : 0;
+        size_t e = idx[i] + SE_STREAM_REFINE_HALF + 1 < n ? idx[i] + SE_STREAM_REFINE_HALF + 1 : n;
+        double *win = NULL;
+        size_t c = 0;
+        if ((st = se_stack_rwin(&tsrc, xc, xw, n, m, a, e, &win, &c, err)) != SE_OK)
+            goto done;
+        /* refined at the record's own index (lag = (double)k + tau, as on the whole r: a lag
+         * refined in the window and shifted back would be rounded twice); se_refine_peak reads r
+         * only within 2^16 + a few lags of idx[i], all in [c, e), and sees the record's end where
+         * the window reaches it (e = n) or none within its reach (e < n) */
+        st = se_refine_peak(win - c, e, idx[i], 0, &sr.onsets[i], &sr.amplitudes[i], err);
+        free(win);
+        if (st != SE_OK)
+            goto done;
+    }
+    if ((st = se_stack_layout(sr.onsets, k, n, sc.pre, m, &pre, &len, err)) != SE_OK)
+        goto done;
+
+    /* Pass 2: the runs of clipped samples of the response. */
+    info->stack_reads++;
+    if (sf_seek(src_in->snd, 0, SEEK_SET) != 0) {
+        st = se_fail(err, SE_ERR_IO, "%s: cannot seek to the start", src_in->path);
+        goto done;
+    }
+    {
+        size_t pos = 0, rb = 0;
+        double rv = 0.0;
+        int inrun = 0;
+        while (pos < n) {
+            size_t take = n - pos < SE_STREAM_READ_FRAMES ? n - pos : SE_STREAM_READ_FRAMES;
+            sf_count_t got = sf_readf_double(src_in->snd, inter, (sf_count_t)take);
+            if (got <= 0) {
+                st = se_fail(err, SE_ERR_FORMAT, "%s: truncated: file ends before frame %zu",
+                             src_in->path, pos + 1);
+                goto done;
+            }
+            for (j = 0; j <= (size_t)got; j++) {
+                size_t at = pos + j;
+                int last = j == (size_t)got;
+                double v = last ? 0.0 : inter[j * nch + rch];
+                if (last && at < n)
+                    break; /* the next read continues the run */
+                if (inrun && (last || v != rv)) {
+                    if (at - rb >= SE_STREAM_CLIP_RUN) {
+                        if (nruns == capruns) {
+                            size_t nc = capruns ? 2 * capruns : 64;
+                            se_xrun *t = realloc(runs, nc * sizeof *t);
+                            if (t == NULL) {
+                                st = se_fail(err, SE_ERR_NOMEM, "stream: cannot keep %zu clipped runs", nc);
+                                goto done;
+                            }
+                            runs = t;
+                            capruns = nc;
+                        }
+                        runs[nruns].b = rb;
+                        runs[nruns].e = at;
+                        nruns++;
+                    }
+                    inrun = 0;
+                }
+                if (last)
+                    break;
+                if (!inrun && (v == vmax || v == vmin)) {
+                    inrun = 1;
+                    rb = at;
+                    rv = v;
+                }
+            }
+            pos += (size_t)got;
+        }
+    }
+    for (i = 0; i < nruns; i++) { /* se_locate's se_find_clipping on the record */
+        if (first_clipped == SIZE_MAX)
+            first_clipped = runs[i].b;
+        clipped_samples += runs[i].e - runs[i].b;
+    }
+    /* the shots' clipping test: a run of 5 or more touching [b, b + len + 1) */
+    {
+        size_t q = 0;
+        for (i = 0; i < k; i++) {
+            size_t b = (size_t)floor(sr.onsets[i]) - pre, e = b + len + 1;
+            if (e > n)
+                continue;
+            while (q < nruns && runs[q].e <= b)
+                q++;
+            clip[i] = (unsigned char)(q < nruns && runs[q].b < e);
+        }
+    }
+    if ((st = se_stack_screen(sr.onsets, sr.amplitudes, clip, k, n, pre, len, sr.status, err)) != SE_OK)
+        goto done;
+
+    /* Alignment, misfit and stack, part of the interval by part. */
+    {
+        size_t P = 64, w, nc = 0, parts, pass, j0;
+        int keep;
+        for (i = 0; i < k; i++)
+            nc += sr.status[i] == SE_SHOT_USED;
+        while (P < len + 128)
+            P *= 2;
+        w = budget / sizeof(double) / k;
+        w = w < 1024 ? 1024 : w;
+        w = w > len ? len : w;
+        parts = (len + w - 1) / w;
+        keep = parts == 1;
+        rows = malloc(k * w * sizeof *rows);
+        xwin = malloc(P * sizeof *xwin);
+        segbuf = malloc(len * sizeof *segbuf);
+        if (rows == NULL || xwin == NULL || segbuf == NULL) {
+            st = se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate %zu x %zu aligned samples", k, w);
+            goto done;
+        }
+        if (nc >= 3) {
+            for (pass = 0, j0 = 0; j0 < len; j0 += w, pass++) {
+                size_t ww = len - j0 < w ? len - j0 : w;
+                if ((st = se_stack_fill(&rsrc, n, sr.onsets, sr.status, k, pre, len, j0, ww, rows,
+                                        xwin, segbuf, err)) != SE_OK ||
+                    (st = se_stack_misfit_part(rows, k, ww, sr.status, misfit, err)) != SE_OK)
+                    goto done;
+            }
+            info->stack_reads += (unsigned)parts;
+            if ((st = se_stack_misfit_screen(misfit, k, sr.status, err)) != SE_OK)
+                goto done;
+        } else {
+            keep = 0;
+        }
+        nu = 0;
+        for (i = 0; i < k; i++)
+            if (sr.status[i] == SE_SHOT_USED) {
+                if (first == SIZE_MAX)
+                    first = i;
+                nu++;
+            }
+        sr.n_used = nu;
+        sr.first_used = first == SIZE_MAX ? 0 : first;
+        sr.pre = pre;
+        sr.length = len;
+        if (nu >= 2) {
+            if ((st = se_stack_acc_init(&acc, sr.status, k, len, sc.mode, err)) != SE_OK)
+                goto done;
+            for (j0 = 0; j0 < len; j0 += w) {
+                size_t ww = len - j0 < w ? len - j0 : w;
+                if (!keep && (st = se_stack_fill(&rsrc, n, sr.onsets, sr.status, k, pre, len, j0,
+                                                 ww, rows, xwin, segbuf, err)) != SE_OK)
+                    goto done;
+                if ((st = se_stack_acc_part(&acc, rows, j0, ww, err)) != SE_OK)
+                    goto done;
+            }
+            if (!keep)
+                info->stack_reads += (unsigned)parts;
+            if ((st = se_stack_acc_gain(&acc, &sr, err)) != SE_OK)
+                goto done;
+        }
+    }
+
+    /* se_locate on the stack (or on the one usable shot's segment), as after its own stacking;
+     * one extra sample so that it sees the record's length change (stack.h se_stack_given). */
+    se_stack_given_init(&given);
+    given.n_found = k;
+    given.n_used = sr.n_used;
+    given.first_used = sr.first_used;
+    given.pre = pre;
+    given.onsets = sr.onsets;
+    given.gain_db = sr.gain_db;
+    given.expected_gain_db = sr.expected_gain_db;
+    given.noise_single = sr.noise_single;
+    given.noise_stacked = sr.noise_stacked;
+    if (sr.n_used >= 2) {
+        x2 = malloc((len + 1) * sizeof *x2);
+        if (x2 == NULL) {
+            st = se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate the stack of %zu samples", len);
+            goto done;
+        }
+        memcpy(x2, acc.stacked, len * sizeof *x2);
+        x2[len] = 0.0;
+    } else {
+        size_t kk = sr.n_used > 0 ? sr.first_used : 0, b, ln = len;
+        double o = floor(sr.onsets[kk]);
+        b = o > (double)pre ? (size_t)o - pre : 0;
+        if (b + ln > n)
+            ln = n - b;
+        x2 = malloc((ln + 1) * sizeof *x2);
+        if (x2 == NULL) {
+            st = se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate a shot of %zu samples", ln);
+            goto done;
+        }
+        if ((st = se_read_range(&rsrc, b, ln, x2, err)) != SE_OK)
+            goto done;
+        x2[ln] = 0.0;
+        len = ln;
+    }
+    lc = *cfg;
+    lc.pilot = se_stack_given_pilot(&given);
+    if (lc.reference_offset != SIZE_MAX)
+        lc.reference_offset = pre;
+    st = se_locate(x2, len + 1, rate, &lc, res, err);
+    if (st != SE_OK)
+        goto done;
+    /* what se_locate's se_find_clipping found on the whole record (n_clip_runs is 0 after a stack) */
+    res->clipped_samples = clipped_samples;
+    res->first_clipped = first_clipped;
+    for (i = 0; i < nruns && i < SE_MAX_CLIP_RUNS; i++) {
+        res->clip_runs[i][0] = runs[i].b;
+        res->clip_runs[i][1] = runs[i].e;
+    }
+    res->n_clip_runs = 0;
+    for (i = 0; i < k; i++)
+        if ((size_t)sr.status[i] < sizeof info->shots / sizeof info->shots[0])
+            info->shots[sr.status[i]]++;
+    *stacked = 1;
+
+done:
+    se_stack_result_free(&sr);
+    se_stack_acc_free(&acc);
+    se_shot_finder_destroy(fd);
+    se_xcorr_work_destroy(xw);
+    se_xcorr_destroy(xc);
+    free(runs);
+    free(idx);
+    free(inter);
+    free(tx);
+    free(rw);
+    free(rows);
+    free(xwin);
+    free(segbuf);
+    free(misfit);
+    free(clip);
+    free(x2);
     return st;
 }
