@@ -648,7 +648,15 @@ static void se_print_table(const se_locate_result *res, const se_recording *rec,
         size_t ncorr = 0;
         for (i = 0; i < res->n_events; i++)
             ncorr += res->events[i].skin_corrected != 0;
-        if (res->skin_k_estimated)
+        if (res->skin_k_estimated && !(res->skin_k_s05_per_m > 0.0))
+            printf("skin-effect loss estimated from %zu echoes: none seen (K = 0 s^0.5/m)",
+                   res->skin_fit_echoes);
+        else if (res->skin_k_estimated && !isfinite(res->skin_k_uncertainty))
+            printf("skin-effect loss estimated from %zu echoes: K = %.4g s^0.5/m (uncertainty not "
+                   "known; %.3g dB per 100 m at 100 MHz, all taken as conductor loss)",
+                   res->skin_fit_echoes, res->skin_k_s05_per_m,
+                   se_skin_loss_attenuation_db(res->skin_k_s05_per_m, 100.0, 1e8));
+        else if (res->skin_k_estimated)
             printf("skin-effect loss estimated from %zu echoes: K = %.4g +/- %.2g s^0.5/m (%.3g dB "
                    "per 100 m at 100 MHz, all taken as conductor loss)",
                    res->skin_fit_echoes, res->skin_k_s05_per_m, res->skin_k_uncertainty,
@@ -657,10 +665,12 @@ static void se_print_table(const se_locate_result *res, const se_recording *rec,
             printf("skin-effect loss K = %.4g s^0.5/m (%.3g dB per 100 m at 100 MHz)",
                    res->skin_k_s05_per_m,
                    se_skin_loss_attenuation_db(res->skin_k_s05_per_m, 100.0, 1e8));
-        printf(": %zu echo%s matched with loss-shaped templates, %zu detection%s dropped as "
-               "pieces of a distorted echo\n",
-               ncorr, ncorr == 1 ? "" : "es", res->skin_explained,
-               res->skin_explained == 1 ? "" : "s");
+        if (res->skin_k_s05_per_m > 0.0)
+            printf(": %zu echo%s matched with loss-shaped templates, %zu detection%s dropped as "
+                   "pieces of a distorted echo",
+                   ncorr, ncorr == 1 ? "" : "es", res->skin_explained,
+                   res->skin_explained == 1 ? "" : "s");
+        printf("\n");
     }
     if (res->shots_found > 1 && res->shot_interval_s > 0.0)
         printf("the line rings for %.3g s after a tap; the taps are %.3g s apart%s\n",

@@ -120,7 +120,9 @@ char *se_result_json(const se_locate_result *res, const se_run_info *info, se_er
                    se_jnum(res->attenuation_uncertainty_db_per_m));
     bad |= se_jset(root, "attenuation_repeats", json_integer((json_int_t)res->attenuation_repeats));
     bad |= se_jset(root, "skin_loss_s05_per_m",
-                   se_jnum(res->skin_k_s05_per_m != 0.0 ? res->skin_k_s05_per_m : NAN));
+                   se_jnum(res->skin_k_s05_per_m != 0.0 || res->skin_k_estimated
+                               ? res->skin_k_s05_per_m
+                               : NAN));
     bad |= se_jset(root, "skin_loss_uncertainty", se_jnum(res->skin_k_uncertainty));
     bad |= se_jset(root, "skin_loss_estimated", json_boolean(res->skin_k_estimated));
     bad |= se_jset(root, "skin_fit_echoes", json_integer((json_int_t)res->skin_fit_echoes));
