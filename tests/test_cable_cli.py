@@ -8,7 +8,8 @@ Checks (tolerances are common practice, no source):
   stated interval of 132 m, skin-corrected, the JSON's K equal to the file's mean K (4.895e-7
   s^0.5/m as the fixture's comment works out), the split pieces counted in `skin_explained`;
 - `--skin-loss 0` turns it off: the end is then seen late (more than 5 cm) and weak, in pieces;
-- the zero-reflection junctions are "not seen" below the threshold, never MISSING;
+- the zero-reflection junctions are "not seen" below the threshold, never MISSING (terminal and
+  report), and the report states the skin-effect loss;
 - the table gives cable delays in microseconds.
 """
 import json
@@ -49,7 +50,8 @@ def main():
                          "--duration", "2 us", "--noise", "0.002", "-o", "feed.wav"], tmp)
         if not check(rc == 0, "simulate exits 0 (%d %s)" % (rc, se)):
             return 1
-        rc, out, se = run(["locate", "feed.wav", "--pulse-channel", "2", "--line", LINE, "--json", "f.json"], tmp)
+        rc, out, se = run(["locate", "feed.wav", "--pulse-channel", "2", "--line", LINE, "--json", "f.json",
+                           "--report", "f.html"], tmp)
         if not check(rc == 0, "locate exits 0 (%d %s)" % (rc, se)):
             return 1
         with open(os.path.join(tmp, "f.json")) as f:
@@ -68,6 +70,12 @@ def main():
         check("MISSING" not in out and out.count("below the threshold") == 2,
               "zero-reflection junctions not seen, not MISSING:\n%s" % out)
         check("delay (us)" in out, "cable delays in microseconds")
+        with open(os.path.join(tmp, "f.html"), encoding="utf-8") as f:
+            html = f.read()
+        check("1 of 4 expected features found (2 expected below the detection threshold)" in html and
+              html.count("not seen: expected below the detection threshold") == 2,
+              "the report: zero-reflection junctions below the threshold, not missing")
+        check("Skin-effect loss of the cable" in html, "the report states the skin-effect loss")
         rc, out, se = run(["locate", "feed.wav", "--pulse-channel", "2", "--line", LINE, "--skin-loss", "0",
                            "--json", "p.json"], tmp)
         check(rc == 0, "locate --skin-loss 0 exits 0 (%d %s)" % (rc, se))

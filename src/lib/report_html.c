@@ -445,11 +445,18 @@ static void se_rmatch_free(se_rmatch *m)
     memset(m, 0, sizeof *m);
 }
 
+/* 1 when an expected event that was not found is too weak to be seen: its expected echo lies
+ * below the detection threshold (a junction of equal impedances), so not finding it is no news. */
+static int se_expected_below(const se_expected_event *e, const se_locate_result *r)
+{
+    return e->has_reflection && !(fabs(e->amplitude) >= r->threshold);
+}
+
 /* One sentence on what was found, for the summary and the section. */
 static void se_finding_sentence(se_rb *b, const se_rmatch *m, char *out, size_t size, int *warn)
 {
     const se_locate_result *r = m->res;
-    size_t i, prim = 0, mult = 0, unexpected = 0, missing = 0;
+    size_t i, prim = 0, mult = 0, unexpected = 0, missing = 0, below = 0;
     int n;
     *warn = 0;
     for (i = 0; i < r->n_events; i++) {
@@ -462,15 +469,22 @@ static void se_finding_sentence(se_rb *b, const se_rmatch *m, char *out, size_t 
         }
     }
     if (m->nex > 0 && r->expected_found != NULL)
-        for (i = 0; i < m->nex; i++)
+        for (i = 0; i < m->nex; i++) {
             missing += r->expected_found[i] < 0;
+            below += r->expected_found[i] < 0 && se_expected_below(&m->ex[i], r);
+        }
     n = snprintf(out, size, "%zu reflection%s located (%zu primar%s, %zu multiple%s)", r->n_events,
                  r->n_events == 1 ? "" : "s", prim, prim == 1 ? "y" : "ies", mult, mult == 1 ? "" : "s");
     if (n < 0 || (size_t)n >= size)
         return;
     if (m->nex > 0) {
-        n += snprintf(out + n, size - (size_t)n, "; %zu of %zu expected features found, %zu unexpected reflection%s",
-                      m->nex - missing, m->nex, unexpected, unexpected == 1 ? "" : "s");
+        n += snprintf(out + n, size - (size_t)n, "; %zu of %zu expected features found", m->nex - missing,
+                      m->nex);
+        if (n >= 0 && (size_t)n < size && below > 0)
+            n += snprintf(out + n, size - (size_t)n, " (%zu expected below the detection threshold)", below);
+        if (n >= 0 && (size_t)n < size)
+            n += snprintf(out + n, size - (size_t)n, ", %zu unexpected reflection%s", unexpected,
+                          unexpected == 1 ? "" : "s");
         if (unexpected > 0)
             *warn = 1;
     }
@@ -798,7 +812,7 @@ static se_status se_report_section(se_rb *b, const se_report *r, size_t index, s
         for (i = 0; i < m->nex; i++) {
             const se_expected_event *e = &m->ex[i];
             int f = (res->expected_found != NULL && i < res->n_expected) ? res->expected_found[i] : -1;
-            se_rb_printf(b, "<tr%s><td>", f < 0 ? " class=\"missing\"" : "");
+            se_rb_printf(b, "<tr%s><td>", f < 0 && !se_expected_below(e, res) ? " class=\"missing\"" : "");
             se_rb_esc(b, e->name);
             se_rb_add(b, "</td><td>");
             se_rb_esc(b, e->kind);
@@ -810,6 +824,9 @@ static se_status se_report_section(se_rb *b, const se_report *r, size_t index, s
                 se_rb_printf(b, "<td>event %d</td><td class=\"n\">%s</td><td class=\"n\">%s</td><td class=\"n\">%s</td>",
                              f + 1, se_rb_num(b, ev->distance_m * b->k, dd),
                              se_rb_num(b, (ev->distance_m - e->distance_m) * b->k, dd), se_rb_num(b, ev->reflection, 3));
+            } else if (se_expected_below(e, res)) {
+                se_rb_add(b, "<td>not seen: expected below the detection threshold</td><td class=\"n\">&ndash;</td>"
+                             "<td class=\"n\">&ndash;</td><td class=\"n\">&ndash;</td>");
             } else {
                 se_rb_add(b, "<td>not found</td><td class=\"n\">&ndash;</td><td class=\"n\">&ndash;</td>"
                              "<td class=\"n\">&ndash;</td>");
