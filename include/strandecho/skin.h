@@ -62,6 +62,18 @@ size_t se_skin_template_length(size_t m, double rate_hz, double a_sqrt_s);
 se_status se_skin_template(const double *pulse, size_t m, double rate_hz, double a_sqrt_s,
                            double shift, double **out, size_t *n_out, double *d2, se_error *err);
 
+/* The loss's impulse response sampled per sample, h(t / fs) / fs with t in samples (so that its
+ * samples sum to about its integral 1): h(t) = a / (2 sqrt(pi)) t^(-3/2) exp(-a^2 / (4 t)) for
+ * t > 0, 0 otherwise (and for rate_hz <= 0). */
+double se_skin_impulse(double t_samples, double a_sqrt_s, double rate_hz);
+
+/* Take out of y [size: len] what a circular transform of length n_fft (>= 2 len) wrapped in from
+ * the slow tail of a pulse of the given area and centroid (samples) passed through the loss a:
+ * y[k] -= area sum_{j >= 1} h(k + j n_fft - centroid), four images and the rest as the integral
+ * erf(a / (2 sqrt T)) / n_fft, evaluated every 64 samples and interpolated linearly between. */
+void se_skin_unwrap(double *y, size_t len, size_t n_fft, double centroid, double area,
+                    double a_sqrt_s, double rate_hz);
+
 /* One located echo for the correction: in, the locator's estimate; out, the corrected one. */
 typedef struct se_skin_echo {
     double lag;             /* in: lag, samples from the record start (se_peak.lag, late under

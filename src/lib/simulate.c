@@ -9,6 +9,7 @@
 #include <gsl/gsl_rng.h>
 
 #include "internal.h"
+#include "strandecho/skin.h"
 #include "strandecho/simulate.h"
 
 /* A wave in flight on a segment: the cell at which it reaches the next node, its amplitude there. */
@@ -516,25 +517,6 @@ se_status se_sim_uniform_line(double speed_m_s, const se_sim_reflector *refl, si
     return SE_OK;
 }
 
-/* Skin-effect impulse response per sample, h(t / fs) / fs (skin.h), t in samples. */
-static double se_sim_skin_h(double t_samples, double a, double fs)
-{
-    double t;
-    if (!(t_samples > 0.0))
-        return 0.0;
-    t = t_samples / fs;
-    return a / (2.0 * sqrt(SE_PI)) * pow(t, -1.5) * exp(-a * a / (4.0 * t)) / fs;
-}
-
-/* The circular transform's wrap at sample k of a unit-area arrival centred at c (samples): two
- * images h(k + j N - c) and the rest as the integral erf(a / (2 sqrt T)) / N. */
-static double se_sim_skin_alias(size_t k, size_t N, double c, double a, double fs)
-{
-    double al = se_sim_skin_h((double)k + (double)N - c, a, fs) +
-                se_sim_skin_h((double)k + 2.0 * (double)N - c, a, fs);
-    return al + erf(a / (2.0 * sqrt(((double)k + 2.5 * (double)N - c) / fs))) / (double)N;
-}
-
 se_status se_simulate_skin(const se_sim_line *line, const se_sim_record *rec, double skin_k_s05_per_m,
                            double speed_m_s, double *response, double *pulse, size_t frames,
                            se_error *err)
@@ -645,20 +627,8 @@ se_status se_simulate_skin(const se_sim_line *line, const se_sim_record *rec, do
                 const double a = skin_k_s05_per_m * speed_m_s * arr[i].time_s;
                 if (start >= (double)frames)
                     continue;
-                /* smooth on the scale of N >= 2 frames: exact every 64 samples, linear between */
-                size_t lo_k = 0, hi_k = 0;
-                double lo_v = se_sim_skin_alias(0, N, c, a, fs), hi_v = lo_v;
-                for (k = 0; k < frames; k++) {
-                    if (k > hi_k || (k == 0 && frames > 1)) {
-                        lo_k = hi_k;
-                        lo_v = hi_v;
-                        hi_k = lo_k + 64 < frames - 1 ? lo_k + 64 : frames - 1;
-                        hi_v = se_sim_skin_alias(hi_k, N, c, a, fs);
-                    }
-                    response[k] -= amp * (hi_k > lo_k ? lo_v + (hi_v - lo_v) * (double)(k - lo_k) /
-                                                                (double)(hi_k - lo_k)
-                                                      : lo_v);
-                }
+                /* the wrap of the slow tail (skin.h), smooth on the scale of N >= 2 frames */
+                se_skin_unwrap(response, frames, N, c, amp, a, fs);
             }
     }
     if (rec->noise_rms > 0.0) {

@@ -51,8 +51,6 @@ typedef struct se_skin_obj {
 } se_skin_obj;
 
 static size_t se_skin_pow2(size_t n);
-static double se_skin_h(double t_samples, double a, double fs);
-static double se_skin_alias(size_t k, size_t N, double c, double a, double fs);
 static se_status se_skin_fit_one(const se_skin_ctx *c, double kappa, double lag_start, double sign,
                                  double *lag, double *amp, double *a_out, size_t *iters,
                                  se_error *err);
@@ -74,15 +72,14 @@ static size_t se_skin_pow2(size_t n)
     return p;
 }
 
-/* Impulse response per sample: h(t / fs) / fs with t in samples, so that its samples sum to about
- * its integral 1: h(t) = a / (2 sqrt(pi)) t^(-3/2) exp(-a^2 / (4 t)). */
-static double se_skin_h(double t_samples, double a, double fs)
+double se_skin_impulse(double t_samples, double a_sqrt_s, double rate_hz)
 {
     double t;
-    if (!(t_samples > 0.0))
+    if (!(t_samples > 0.0) || !(rate_hz > 0.0))
         return 0.0;
-    t = t_samples / fs;
-    return a / (2.0 * sqrt(SE_PI)) * pow(t, -1.5) * exp(-a * a / (4.0 * t)) / fs;
+    t = t_samples / rate_hz;
+    return a_sqrt_s / (2.0 * sqrt(SE_PI)) * pow(t, -1.5) * exp(-a_sqrt_s * a_sqrt_s / (4.0 * t)) /
+           rate_hz;
 }
 
 /* What the circular transform of length N adds at sample k for a unit-area pulse of centroid c:
@@ -92,9 +89,31 @@ static double se_skin_alias(size_t k, size_t N, double c, double a, double fs)
     double al = 0.0, t;
     int j;
     for (j = 1; j <= SE_SKIN_ALIAS_TERMS; j++)
-        al += se_skin_h((double)k + (double)j * (double)N - c, a, fs);
+        al += se_skin_impulse((double)k + (double)j * (double)N - c, a, fs);
     t = ((double)k + (SE_SKIN_ALIAS_TERMS + 0.5) * (double)N - c) / fs;
     return al + erf(a / (2.0 * sqrt(t))) / (double)N;
+}
+
+void se_skin_unwrap(double *y, size_t len, size_t n_fft, double centroid, double area,
+                    double a_sqrt_s, double rate_hz)
+{
+    /* the correction varies on the scale of n_fft >= 2 len: exact at every SE_SKIN_ALIAS_STEP-th
+     * sample and at the last, linear between (relative error ~ (step / n_fft)^2) */
+    double lo_v, hi_v;
+    size_t lo_k = 0, hi_k = 0, k;
+    if (y == NULL || len == 0 || n_fft == 0)
+        return;
+    lo_v = hi_v = se_skin_alias(0, n_fft, centroid, a_sqrt_s, rate_hz);
+    for (k = 0; k < len; k++) {
+        if (k > hi_k || (k == 0 && len > 1)) {
+            lo_k = hi_k;
+            lo_v = hi_v;
+            hi_k = lo_k + SE_SKIN_ALIAS_STEP < len - 1 ? lo_k + SE_SKIN_ALIAS_STEP : len - 1;
+            hi_v = se_skin_alias(hi_k, n_fft, centroid, a_sqrt_s, rate_hz);
+        }
+        y[k] -= area * (hi_k > lo_k ? lo_v + (hi_v - lo_v) * (double)(k - lo_k) / (double)(hi_k - lo_k)
+                                    : lo_v);
+    }
 }
 
 void se_skin_config_init(se_skin_config *cfg)
@@ -201,21 +220,7 @@ se_status se_skin_template(const double *pulse, size_t m, double rate_hz, double
     if (a_sqrt_s > 0.0 && fabs(s0) > 1e-12 * sabs) {
         /* the circular transform adds y(k + j N) for j >= 1: far in the tail y(t) = s0 h(t - c),
          * c the centroid; four images and the rest as an integral, erf(a / (2 sqrt T)) / N */
-        /* the correction varies on the scale of N >= 2 L: exact at every SE_SKIN_ALIAS_STEP-th
-         * sample and at the last, linear between (relative error ~ (step / N)^2) */
-        const double c = s1 / s0 + shift;
-        double lo_v = se_skin_alias(0, N, c, a_sqrt_s, rate_hz), hi_v = lo_v;
-        size_t lo_k = 0, hi_k = 0;
-        for (k = 0; k < L; k++) {
-            if (k > hi_k || (k == 0 && L > 1)) {
-                lo_k = hi_k;
-                lo_v = hi_v;
-                hi_k = lo_k + SE_SKIN_ALIAS_STEP < L - 1 ? lo_k + SE_SKIN_ALIAS_STEP : L - 1;
-                hi_v = se_skin_alias(hi_k, N, c, a_sqrt_s, rate_hz);
-            }
-            y[k] -= s0 * (hi_k > lo_k ? lo_v + (hi_v - lo_v) * (double)(k - lo_k) / (double)(hi_k - lo_k)
-                                      : lo_v);
-        }
+        se_skin_unwrap(y, L, N, s1 / s0 + shift, s0, a_sqrt_s, rate_hz);
     }
     if (d2 != NULL)
         *d2 = acc / (double)N;
