@@ -15,33 +15,17 @@ Checks (tolerances are common practice, no source):
 import json
 import os
 import shutil
-import subprocess
 import sys
 import tempfile
 
-CLI = os.environ.get("SE_CLI")
-SRC = os.environ.get("SE_SOURCE_DIR", os.path.join(os.path.dirname(__file__), ".."))
+from clitest import SRC, Checks, have_cli, run
+
 LINE = os.path.join(SRC, "fixtures", "lines", "coax-feeder-skin.yaml")
-failures = 0
-checks = 0
-
-
-def check(cond, what):
-    global failures, checks
-    checks += 1
-    if not cond:
-        failures += 1
-        print("FAIL %s" % what)
-    return cond
-
-
-def run(args, cwd):
-    p = subprocess.run([CLI, *args], cwd=cwd, capture_output=True, text=True, timeout=120)
-    return p.returncode, p.stdout, p.stderr
+check = Checks("test_cable_cli")
 
 
 def main():
-    if not CLI or not os.access(CLI, os.X_OK):
+    if not have_cli():
         print("SE_CLI not set: skipped")
         return 77
     tmp = tempfile.mkdtemp(prefix="cable-", dir=os.getcwd())
@@ -88,9 +72,7 @@ def main():
         check(plain["skin_loss_s05_per_m"] is None, "no K reported with --skin-loss 0")
     finally:
         shutil.rmtree(tmp, ignore_errors=True)
-    print("test_cable_cli: %d of %d checks failed" % (failures, checks) if failures
-          else "test_cable_cli: all %d checks passed" % checks)
-    return 1 if failures else 0
+    return check.done()
 
 
 if __name__ == "__main__":

@@ -17,31 +17,16 @@ import json
 import os
 import re
 import shutil
-import subprocess
 import sys
 import tempfile
 
-CLI = os.environ.get("SE_CLI")
-failures = 0
-checks = 0
+from clitest import Checks, have_cli, run
 
-
-def check(cond, what):
-    global failures, checks
-    checks += 1
-    if not cond:
-        failures += 1
-        print("FAIL %s" % what)
-    return cond
-
-
-def run(args, cwd):
-    p = subprocess.run([CLI, *args], cwd=cwd, capture_output=True, text=True, timeout=120)
-    return p.returncode, p.stdout, p.stderr
+check = Checks("test_surveyor_line")
 
 
 def main():
-    if not CLI or not os.access(CLI, os.X_OK):
+    if not have_cli():
         print("SE_CLI not set: skipped")
         return 77
     tmp = tempfile.mkdtemp(prefix="surveyor-", dir=os.getcwd())
@@ -86,9 +71,7 @@ def main():
         check(rc == 0 and len(rows) == len(evs), "--verbose lists every event (%d of %d)" % (len(rows), len(evs)))
     finally:
         shutil.rmtree(tmp, ignore_errors=True)
-    print("test_surveyor_line: %d of %d checks failed" % (failures, checks) if failures
-          else "test_surveyor_line: all %d checks passed" % checks)
-    return 1 if failures else 0
+    return check.done()
 
 
 if __name__ == "__main__":
