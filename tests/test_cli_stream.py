@@ -44,6 +44,36 @@ p = subprocess.run([CLI, "locate", DEMO, "--stream", "--tension", "100 kN", "--m
                    capture_output=True, text=True)
 check(p.returncode == 2 and p.stderr.count("\n") == 1 and "needs --pulse-channel" in p.stderr,
       "streaming without a pulse channel is refused in one line")
+# Repeated taps (issue 8: stacking on the stream): six taps 2 s apart on a line that rings for
+# longer (far end fixed at 100 m, source end fixed), streamed and whole: the same shots found and
+# used, the same gain and interval, the same events (delays within 1e-9 s) and multiple labels.
+TAPS = os.path.join(os.environ.get("SE_BINARY_DIR", "."), "test_cli_stream_taps.wav")
+p = subprocess.run([CLI, "simulate", "--pulse", "hann:20ms", "--rate", "48kHz", "--duration", "12s",
+                    "--tension", "100 kN", "--mass-per-length", "5 kg/m", "--end", "100m:fixed",
+                    "--source-end", "0.8", "--noise", "0.01", "--shots", "6", "--interval", "2s",
+                    "-o", TAPS, "--quiet"], capture_output=True, text=True)
+check(p.returncode == 0, "simulate --shots: " + p.stderr)
+if p.returncode == 0:
+    def taps(*extra):
+        q = subprocess.run([CLI, "locate", TAPS, "--pulse-channel", "2", "--tension", "100 kN",
+                            "--mass-per-length", "5 kg/m", "--source-end", "0.8", "--json", "-", *extra],
+                           capture_output=True, text=True)
+        if q.returncode != 0:
+            print(q.stderr)
+            sys.exit(1)
+        return json.loads(q.stdout)
+    tw, ts = taps(), taps("--stream")
+    check(tw["shots_found"] == 6 and tw["shots_used"] >= 2, "whole: %s of %s shots used" % (tw["shots_used"], tw["shots_found"]))
+    for key in ("shots_found", "shots_used", "shot_interval_s", "shots_overlap"):
+        check(tw[key] == ts[key], "taps --stream: same %s (%s, %s)" % (key, tw[key], ts[key]))
+    check(abs(tw["stack_gain_db"] - ts["stack_gain_db"]) <= 1e-12 * abs(tw["stack_gain_db"]),
+          "taps --stream: same gain")
+    check(len(tw["events"]) == len(ts["events"]), "taps --stream: same number of events")
+    for a, b in zip(tw["events"], ts["events"]):
+        check(abs(a["delay_s"] - b["delay_s"]) <= 1e-9, "taps --stream: delay %.12g vs %.12g" % (a["delay_s"], b["delay_s"]))
+        check(a["class"] == b["class"] and a.get("multiple") == b.get("multiple")
+              and a.get("previous_shot") == b.get("previous_shot"), "taps --stream: same labels")
+    os.remove(TAPS)
 if failures:
     sys.exit(1)
 print("stream CLI: all checks passed")

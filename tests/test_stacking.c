@@ -12,6 +12,8 @@
  * - se_locate stacks by itself: the eight shots as one recording (synthetic and self references)
  *   give shots_used 8, a gain within 1 dB of 9.03 dB and the two echoes at d = v t / 2
  *   (REFERENCE.md 1), nothing at the later shots.
+ * - The pieces of stack.h (trigger search, layout, screening, alignment, misfit, stack and gain),
+ *   fed part by part as the streaming locate feeds them, give se_stack_shots' result bit for bit.
  * Tolerances: 1 dB from issue #4; the 5-sigma onset tolerance is common practice, no source. */
 #include <gsl/gsl_randist.h>
 #include <gsl/gsl_rng.h>
@@ -22,6 +24,8 @@
 
 #include "strandecho/locate.h"
 #include "strandecho/stack.h"
+#include "strandecho/detect.h"
+#include "strandecho/xcorr.h"
 #include "testutil.h"
 
 #define SK_PI 3.14159265358979323846
@@ -36,6 +40,8 @@ static void sk_shot(double *x, size_t n, double onset, double gain);
 static void test_eight_shots(void);
 static void test_outliers(void);
 static void test_locate_stacks(void);
+static void sk_pieces(const double *x, size_t n, const se_stack_config *cfg,
+                      const se_stack_result *whole);
 
 static double sk_ricker(double t)
 {
@@ -139,6 +145,132 @@ out:
     free(clean);
 }
 
+/* The pieces of stack.h fed part by part (what the streaming locate does) give se_stack_shots'
+ * result bit for bit: the trigger search fed r in pieces of 1, 2, 37, 1000 and 4093 lags, the
+ * misfit over two parts of the interval, the stack over three. */
+static void sk_pieces(const double *x, size_t n, const se_stack_config *cfg,
+                      const se_stack_result *whole)
+{
+    static const size_t sizes[5] = {1, 2, 37, 1000, 4093};
+    double *r = calloc(n, sizeof *r), *onsets = NULL, *amps = NULL, *seg = NULL, *misfit = NULL;
+    double *rows = NULL, vmax = x[0], vmin = x[0];
+    size_t *idx = NULL, k = 0, i, j, at, q, pre = 0, len = 0, cuts[4];
+    unsigned char *clip = NULL;
+    se_shot_status *status = NULL;
+    se_xcorr *xc = se_xcorr_create(cfg->pulse, cfg->pulse_length, 0, NULL);
+    se_xcorr_work *xw = xc ? se_xcorr_work_create(xc, NULL) : NULL;
+    se_shot_finder *fd = se_shot_finder_create(n, cfg->pulse_length, cfg, NULL);
+    se_stack_acc acc;
+    se_stack_result got;
+
+    memset(&acc, 0, sizeof acc);
+    memset(&got, 0, sizeof got);
+    if (!CHECK(r != NULL && xw != NULL && fd != NULL) ||
+        !CHECK(se_xcorr_run(xc, xw, x, n, r, NULL) == SE_OK))
+        goto out;
+    for (at = 0, q = 0; at < n; q++) {
+        size_t take = sizes[q % 5] < n - at ? sizes[q % 5] : n - at;
+        if (!CHECK(se_shot_finder_push(fd, r + at, take, NULL) == SE_OK))
+            goto out;
+        at += take;
+    }
+    if (!CHECK(se_shot_finder_finish(fd, &idx, &k, NULL) == SE_OK) || !CHECK(k == whole->n_found))
+        goto out;
+    onsets = calloc(k, sizeof *onsets);
+    amps = calloc(k, sizeof *amps);
+    clip = calloc(k, sizeof *clip);
+    status = calloc(k, sizeof *status);
+    misfit = calloc(k, sizeof *misfit);
+    if (!CHECK(onsets != NULL && amps != NULL && clip != NULL && status != NULL && misfit != NULL))
+        goto out;
+    for (i = 0; i < k; i++) {
+        CHECK(se_refine_peak(r, n, idx[i], 0, &onsets[i], &amps[i], NULL) == SE_OK);
+        CHECK(onsets[i] == whole->onsets[i] && amps[i] == whole->amplitudes[i]);
+    }
+    if (!CHECK(se_stack_layout(onsets, k, n, cfg->pre, cfg->pulse_length, &pre, &len, NULL) ==
+               SE_OK) ||
+        !CHECK(pre == whole->pre && len == whole->length))
+        goto out;
+    for (i = 1; i < n; i++) {
+        vmax = fmax(vmax, x[i]);
+        vmin = fmin(vmin, x[i]);
+    }
+    /* the clipping test of stack.h: a run of 5 or more equal samples at an extreme touching the
+     * segment */
+    for (i = 0; i < k; i++) {
+        size_t b = (size_t)floor(onsets[i]) - pre, e = b + len + 1, run = 1;
+        for (j = b; j < e && j < n; j++) {
+            size_t s0 = j, s1 = j;
+            if (x[j] != vmax && x[j] != vmin)
+                continue;
+            while (s0 > 0 && x[s0 - 1] == x[j])
+                s0--;
+            while (s1 + 1 < n && x[s1 + 1] == x[j])
+                s1++;
+            run = s1 - s0 + 1 > run ? s1 - s0 + 1 : run;
+        }
+        clip[i] = run >= 5;
+    }
+    if (!CHECK(se_stack_screen(onsets, amps, clip, k, n, pre, len, status, NULL) == SE_OK))
+        goto out;
+    seg = calloc(len, sizeof *seg);
+    rows = calloc(k * len, sizeof *rows);
+    if (!CHECK(seg != NULL && rows != NULL))
+        goto out;
+    cuts[0] = 0;
+    cuts[1] = len / 3;
+    cuts[2] = len / 2;
+    cuts[3] = len;
+    /* misfit over [0, len/3) and [len/3, len) */
+    for (q = 0; q < 2; q++) {
+        size_t j0 = q ? cuts[1] : 0, w = q ? len - cuts[1] : cuts[1];
+        for (i = 0; i < k; i++)
+            if (status[i] == SE_SHOT_USED) {
+                size_t b, e;
+                se_stack_align_span(onsets[i], pre, len, n, &b, &e);
+                CHECK(se_stack_align(x + b, b, e - b, n, onsets[i], pre, len, seg, NULL) == SE_OK);
+                memcpy(rows + i * w, seg + j0, w * sizeof *seg);
+            }
+        CHECK(se_stack_misfit_part(rows, k, w, status, misfit, NULL) == SE_OK);
+    }
+    CHECK(se_stack_misfit_screen(misfit, k, status, NULL) == SE_OK);
+    for (i = 0; i < k; i++)
+        CHECK(status[i] == whole->status[i]);
+    if (whole->stacked == NULL || !CHECK(se_stack_acc_init(&acc, status, k, len, cfg->mode, NULL) ==
+                                         SE_OK))
+        goto out;
+    for (q = 0; q < 3; q++) {
+        size_t j0 = cuts[q], w = cuts[q + 1] - cuts[q];
+        for (i = 0; i < k; i++)
+            if (status[i] == SE_SHOT_USED) {
+                size_t b, e;
+                se_stack_align_span(onsets[i], pre, len, n, &b, &e);
+                CHECK(se_stack_align(x + b, b, e - b, n, onsets[i], pre, len, seg, NULL) == SE_OK);
+                memcpy(rows + i * w, seg + j0, w * sizeof *seg);
+            }
+        CHECK(se_stack_acc_part(&acc, rows, j0, w, NULL) == SE_OK);
+    }
+    if (CHECK(se_stack_acc_gain(&acc, &got, NULL) == SE_OK)) {
+        CHECK(memcmp(acc.stacked, whole->stacked, len * sizeof *acc.stacked) == 0);
+        CHECK(got.gain_db == whole->gain_db && got.noise_single == whole->noise_single &&
+              got.noise_stacked == whole->noise_stacked);
+    }
+out:
+    se_stack_acc_free(&acc);
+    se_shot_finder_destroy(fd);
+    se_xcorr_work_destroy(xw);
+    se_xcorr_destroy(xc);
+    free(r);
+    free(idx);
+    free(onsets);
+    free(amps);
+    free(clip);
+    free(status);
+    free(misfit);
+    free(seg);
+    free(rows);
+}
+
 static void test_outliers(void)
 {
     /* 12 shots: 8 good, #2 hot and clipped, #5 weak, #7 with an impulsive burst, #11 cut by the end */
@@ -187,12 +319,15 @@ static void test_outliers(void)
     }
     CHECK(res.n_used == 8);
     CHECK_CLOSE(res.gain_db, 10.0 * log10(8.0), 1.0, "gain with the outliers left out, dB");
+    sk_pieces(x, n, &cfg, &res);
     se_stack_result_free(&res);
 
     /* the trimmed mean: the same screening, a stack made */
     cfg.mode = SE_STACK_TRIMMED;
-    if (CHECK(se_stack_shots(x, n, &cfg, &res, &err) == SE_OK))
+    if (CHECK(se_stack_shots(x, n, &cfg, &res, &err) == SE_OK)) {
         CHECK(res.n_used == 8 && res.stacked != NULL);
+        sk_pieces(x, n, &cfg, &res);
+    }
     se_stack_result_free(&res);
 
     CHECK(se_stack_shots(NULL, n, &cfg, &res, &err) == SE_ERR_ARG);
