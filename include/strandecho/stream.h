@@ -17,6 +17,28 @@
  * profile seen from the window (its start moved back by less than block/32 lags so the profile's
  * parts line up).
  *
+ * Repeated shots (stack.h, cfg->stacking not SE_STACKING_OFF, with a pulse channel, which then
+ * plays se_locate_config.pilot): a cheap read first bounds the pulse channel's matched filter by
+ * its energy over each pulse length (Cauchy-Schwarz); when that leaves room for only one shot the
+ * record goes to the one-pass engine above, unchanged. Otherwise the pulse channel is correlated
+ * once (chunk by chunk) and the shots are found on it (se_shot_finder, se_stack_shots' own search),
+ * each refined on its recomputed neighbourhood; one more read finds the response's clipped runs;
+ * then each candidate's span is read back and aligned (phase ramp), and the misfit test and the
+ * stack (mean or trimmed mean) take the aligned segments part of the interval by part, as many
+ * lags at a time as scfg->stack_memory holds for every shot (one part when it all fits; else
+ * the spans are read and aligned again for each part, twice: once for the misfit, once for the
+ * stack). se_locate then runs on the stack, one interval long, as after its own stacking
+ * (se_stack_given), so shots_found, shots_used, stack_gain_db and shot_interval_s, the events and
+ * their multiple / previous-shot labels are se_locate's (the stack within rounding of se_locate's
+ * own: the same operations in the same order, so bit for bit in the tests). When several shots
+ * are found but fewer than two are usable, se_locate runs on the one usable (or first) shot's
+ * segment, as se_locate does. Without a pulse channel repeated shots are not stacked (se_locate
+ * would stack on the response's direct arrivals): the record is located as a single shot.
+ * Memory for repeated shots: stack_memory (default 256 MiB) for the aligned segments, plus the
+ * stack, its alternating mean, an interval of scratch for one alignment and its FFT (2 P doubles,
+ * P the power of two above the interval + 128), 2^18 lags around one trigger at a time, and
+ * se_locate on one interval; measured in docs/performance.md.
+ *
  * Same results as se_locate on the whole record: the same events, with lags bit for bit equal when
  * both plan with FFTW_ESTIMATE (the default here), within ~1e-12 sample otherwise; see
  * se_locate_stream for the two cases where the answer can differ.
@@ -102,8 +124,11 @@ void se_stream_config_init(se_stream_config *scfg);
  *  res  : filled as by se_locate (caller frees with se_locate_result_free even on failure)
  *  info : may be NULL
  * The answer can differ from se_locate's only (1) when more than cfg->max_events peaks pass the
- * threshold (the streaming run keeps the largest, CLEAN on the whole record the first found), and
- * (2) with a pulse channel longer than pulse_window (se_pulse_support then sees a prefix).
+ * threshold (the streaming run keeps the largest, CLEAN on the whole record the first found),
+ * (2) with a pulse channel longer than pulse_window (se_pulse_support then sees a prefix), and
+ * (3) for repeated shots without a pulse channel (not stacked here). With a pulse channel,
+ * se_locate is the run with cfg->pilot = that channel; a record of repeated shots is stacked as
+ * described above (info->shots counts the shots by se_shot_status).
  * Errors: as se_locate, plus SE_ERR_IO / SE_ERR_FORMAT from the file (named), SE_ERR_DATA for a
  * non-finite sample (named by sample and channel), SE_ERR_ARG for a bad channel or option. */
 se_status se_locate_stream(const char *path, const se_locate_config *cfg,

@@ -1,7 +1,8 @@
 /* strandecho: streaming locate (see stream.h). One correlation pass in the usual case:
  *   chunks of x -> r (threads) -> [direct-arrival store D] [noise sample q] [candidate windows]
  * then the direct arrival is refined on D, the noise estimated on q exactly as se_locate does,
- * CLEAN run on each window and the events classified by se_locate_events. */
+ * CLEAN run on each window and the events classified by se_locate_events. Repeated shots with a
+ * pulse channel: se_stream_stack at the end of this file, before the engine runs. */
 #include "strandecho/stream.h"
 
 #include <math.h>
