@@ -53,9 +53,10 @@ static const char se_locate_usage[] =
     "  --speed-uncertainty PCT  one standard uncertainty of the speed, percent\n"
     "Detection:\n"
     "  --false-alarms N         expected false detections per record (default 0.01)\n"
-    "  --source-end TERM        continuing (default), free, fixed, open, short, matched or a\n"
-    "                           coefficient: corrects echo amplitudes seen at the sensor\n"
-    "                           or estimate (from the repeats of the strongest echo)\n"
+    "  --source-end TERM        continuing, free, fixed, open, short, matched or a coefficient:\n"
+    "                           corrects echo amplitudes seen at the sensor; or estimate (the\n"
+    "                           default without --line: from the source-end multiples, 0 when\n"
+    "                           the record holds none)\n"
     "  --stacking auto|off|robust  repeated shots (taps) in one recording are found (on the pulse\n"
     "                           channel when given), aligned and averaged (robust: trimmed mean);\n"
     "                           default auto\n"
@@ -338,8 +339,10 @@ int se_cmd_locate(int argc, char **argv)
         cfg.n_expected = nexp;
         snprintf(sp.source, sizeof sp.source, "from the line file (%zu segment%s, %.6g m)",
                  line->n_segments, line->n_segments == 1 ? "" : "s", line->length_m);
-    } else if (source_end != NULL && strcmp(source_end, "estimate") == 0) {
-        cfg.source_reflection = NAN; /* estimated from the data by se_locate */
+    } else if (source_end == NULL || strcmp(source_end, "estimate") == 0) {
+        /* not given (no line file, no --source-end): estimated from the data by se_locate, 0
+         * (a continuing line) when nothing in the record supports an estimate */
+        cfg.source_reflection = NAN;
     } else if (source_end != NULL &&
                se_termination_parse(source_end, cfg.quantity, &cfg.source_reflection, &err) != SE_OK) {
         return se_cli_fail(SE_EXIT_USAGE, "--source-end: %s", err.message);
@@ -415,6 +418,17 @@ int se_cmd_locate(int argc, char **argv)
         scfg.pulse_channel = (int)(pulse_channel - 1);
         cfg.reference_kind = SE_REF_CHANNEL;
         memset(&sinfo, 0, sizeof sinfo);
+        if (isnan(cfg.source_reflection)) {
+            /* the streaming pipeline has no source-end estimate: an explicit request is refused,
+             * the default becomes a continuing line (0) */
+            if (source_end != NULL) {
+                rc = se_cli_fail(SE_EXIT_USAGE, "--source-end estimate needs the whole record: not "
+                                                "available when streaming %s (give the source end)",
+                                 path);
+                goto done;
+            }
+            cfg.source_reflection = 0.0;
+        }
         if (se_locate_stream(path, &cfg, &scfg, &res, &sinfo, &err) != SE_OK) {
             if (strncmp(err.message, path, strlen(path)) == 0) /* already names the file */
                 rc = se_cli_fail_err(&err, 0);

@@ -341,9 +341,13 @@ static se_status se_sp_line(const se_sp *p, const yaml_node_t *map, size_t index
             return se_sp_fail(p, n, SE_ERR_FORMAT, "the line file gives the source end: drop source_end");
         if ((st = se_sp_text(p, n, "source_end", &v)) != SE_OK)
             return st;
-        if (se_termination_parse(v, l->quantity, &l->source_reflection, p->err) != SE_OK)
-            return se_sp_fail(p, n, SE_ERR_ARG, "source_end: %s", p->err->message);
+        if (strcmp(v, "estimate") == 0)
+            l->source_reflection = NAN;
+        else if (se_termination_parse(v, l->quantity, &l->source_reflection, p->err) != SE_OK)
+            return se_sp_fail(p, n, SE_ERR_ARG, "source_end: %s (or 'estimate')", p->err->message);
         l->have_source_end = 1;
+    } else if (l->line_file == NULL) {
+        l->source_reflection = NAN; /* estimated from the data, as locate does without --source-end */
     }
     if ((n = se_sp_get(p, map, "false_alarms")) != NULL) {
         char *end;
