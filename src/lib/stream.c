@@ -1799,6 +1799,23 @@ typedef struct se_xrun {
     size_t b, e;
 } se_xrun;
 
+/* Up to take (<= SE_STREAM_READ_FRAMES) frames of every channel from where the file is, into
+ * inter [size: take nch]: raw and widened for native-endian float data (the doubles
+ * sf_readf_double gives, without its copy through a small buffer), else sf_readf_double. Returns
+ * the frames read (0 at the end or on error). */
+static size_t se_read_frames(se_src *src, double *inter, size_t take)
+{
+    sf_count_t k;
+    if (src->rawf) {
+        k = sf_read_raw(src->snd, src->fbuf, (sf_count_t)(take * src->nch * sizeof(float)));
+        k = k > 0 ? k / (sf_count_t)(src->nch * sizeof(float)) : 0;
+        se_widen(inter, src->fbuf, (size_t)k * src->nch);
+        return (size_t)k;
+    }
+    k = sf_readf_double(src->snd, inter, (sf_count_t)take);
+    return k > 0 ? (size_t)k : 0;
+}
+
 /* r[a, e) of the trigger channel (src->ch) into *out (malloc'd), bit for bit the pass's values. */
 static se_status se_stack_rwin(se_src *src, const se_xcorr *xc, se_xcorr_work *w, size_t n,
                                size_t m, size_t a, size_t e, double **out, size_t *a_out,
@@ -1910,7 +1927,7 @@ static se_status se_stream_stack(se_src *src_in, size_t n, int pilot_ch, const s
      * the others, the search cannot find two shots: the record is located as a single shot. */
     {
         double es = 0.0, thr, frac = 0.5, e = 0.0, fx;
-        size_t pos = 0, kmin = SIZE_MAX, kmax = 0, hi = n - m + 1;
+        size_t pos = 0, kmin = SIZE_MAX, kmax = 0, hi = n - m + 1, ri = 0;
         double *ring = malloc(m * sizeof *ring);
         if (ring == NULL) {
             st = se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate %zu samples", m);
@@ -1928,29 +1945,28 @@ static se_status se_stream_stack(se_src *src_in, size_t n, int pilot_ch, const s
         /* E_x(k) is known once sample k + m - 1 is read (and for the last m - 1 lags, at the end) */
         while (pos < n) {
             size_t take = n - pos < SE_STREAM_READ_FRAMES ? n - pos : SE_STREAM_READ_FRAMES;
-            sf_count_t got = sf_readf_double(src_in->snd, inter, (sf_count_t)take);
-            if (got <= 0) {
+            size_t got = se_read_frames(src_in, inter, take);
+            if (got == 0) {
                 free(ring);
                 st = se_fail(err, SE_ERR_FORMAT, "%s: truncated: file ends before frame %zu",
                              src_in->path, pos + 1);
                 goto done;
             }
-            for (j = 0; j < (size_t)got; j++) {
+            for (j = 0; j < got; j++) {
                 size_t t = pos + j;
                 fx = inter[j * nch + tch];
                 if (t >= m)
-                    e -= ring[t % m] * ring[t % m];
-                ring[t % m] = fx;
+                    e -= ring[ri] * ring[ri];
+                ring[ri] = fx;
+                ri = ri + 1 == m ? 0 : ri + 1;
                 e += fx * fx;
-                if (t + 1 >= m) {
-                    size_t kk = t + 1 - m;
-                    if (kk < hi && !(fmax(e, 0.0) < thr)) {
-                        kmin = kmin == SIZE_MAX ? kk : kmin;
-                        kmax = kk;
-                    }
+                /* lag t + 1 - m, known now; e < 0 only by rounding */
+                if (!(e < thr) && t + 1 >= m && t + 1 - m < hi) {
+                    kmin = kmin == SIZE_MAX ? t + 1 - m : kmin;
+                    kmax = t + 1 - m;
                 }
             }
-            pos += (size_t)got;
+            pos += got;
         }
         free(ring);
         if (kmin == SIZE_MAX || kmax - kmin < 4 * m)
@@ -1973,13 +1989,13 @@ static se_status se_stream_stack(se_src *src_in, size_t n, int pilot_ch, const s
         size_t pos = 0, c = 0, have = 0; /* tx holds trigger samples c .. c + have - 1 */
         while (pos < n) {
             size_t take = n - pos < SE_STREAM_READ_FRAMES ? n - pos : SE_STREAM_READ_FRAMES;
-            sf_count_t got = sf_readf_double(src_in->snd, inter, (sf_count_t)take);
-            if (got <= 0) {
+            size_t got = se_read_frames(src_in, inter, take);
+            if (got == 0) {
                 st = se_fail(err, SE_ERR_FORMAT, "%s: truncated: file ends before frame %zu",
                              src_in->path, pos + 1);
                 goto done;
             }
-            for (j = 0; j < (size_t)got; j++) {
+            for (j = 0; j < got; j++) {
                 double v = inter[j * nch + rch], t = inter[j * nch + tch];
                 if (!isfinite(v) || !isfinite(t)) {
                     st = se_fail(err, SE_ERR_DATA, "%s: sample %zu (channel %u) is not finite",
@@ -2000,7 +2016,7 @@ static se_status se_stream_stack(se_src *src_in, size_t n, int pilot_ch, const s
                     c += B;
                 }
             }
-            pos += (size_t)got;
+            pos += got;
         }
         while (c < n) { /* the rest, x taken as 0 beyond the end */
             size_t nout = n - c < B ? n - c : B;
@@ -2072,15 +2088,15 @@ static se_status se_stream_stack(se_src *src_in, size_t n, int pilot_ch, const s
         int inrun = 0;
         while (pos < n) {
             size_t take = n - pos < SE_STREAM_READ_FRAMES ? n - pos : SE_STREAM_READ_FRAMES;
-            sf_count_t got = sf_readf_double(src_in->snd, inter, (sf_count_t)take);
-            if (got <= 0) {
+            size_t got = se_read_frames(src_in, inter, take);
+            if (got == 0) {
                 st = se_fail(err, SE_ERR_FORMAT, "%s: truncated: file ends before frame %zu",
                              src_in->path, pos + 1);
                 goto done;
             }
-            for (j = 0; j <= (size_t)got; j++) {
+            for (j = 0; j <= got; j++) {
                 size_t at = pos + j;
-                int last = j == (size_t)got;
+                int last = j == got;
                 double v = last ? 0.0 : inter[j * nch + rch];
                 if (last && at < n)
                     break; /* the next read continues the run */
@@ -2110,7 +2126,7 @@ static se_status se_stream_stack(se_src *src_in, size_t n, int pilot_ch, const s
                     rv = v;
                 }
             }
-            pos += (size_t)got;
+            pos += got;
         }
     }
     for (i = 0; i < nruns; i++) { /* se_locate's se_find_clipping on the record */
