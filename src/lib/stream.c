@@ -1913,6 +1913,7 @@ static se_status se_stream_stack(se_src *src_in, size_t n, int pilot_ch, const s
         goto done;
     }
     step = se_xcorr_step(xc);
+    info->plan = se_xcorr_plan_source(xc); /* replaced by the engine's when it runs */
     B = (block ? block : SE_STREAM_DEFAULT_BLOCK) / step * step; /* as the engine's chunks */
     B = B < step ? step : B;
 
