@@ -13,7 +13,8 @@
  *   give shots_used 8, a gain within 1 dB of 9.03 dB and the two echoes at d = v t / 2
  *   (REFERENCE.md 1), nothing at the later shots.
  * - The pieces of stack.h (trigger search, layout, screening, alignment, misfit, stack and gain),
- *   fed part by part as the streaming locate feeds them, give se_stack_shots' result bit for bit.
+ *   fed part by part as the streaming locate feeds them (and the mean shot by shot), give
+ *   se_stack_shots' result bit for bit.
  * Tolerances: 1 dB from issue #4; the 5-sigma onset tolerance is common practice, no source. */
 #include <gsl/gsl_randist.h>
 #include <gsl/gsl_rng.h>
@@ -254,6 +255,28 @@ static void sk_pieces(const double *x, size_t n, const se_stack_config *cfg,
         CHECK(memcmp(acc.stacked, whole->stacked, len * sizeof *acc.stacked) == 0);
         CHECK(got.gain_db == whole->gain_db && got.noise_single == whole->noise_single &&
               got.noise_stacked == whole->noise_stacked);
+    }
+    /* the mean shot by shot (se_stack_acc_shot): the same stack and gain */
+    se_stack_acc_free(&acc);
+    if (cfg->mode == SE_STACK_MEAN &&
+        CHECK(se_stack_acc_init(&acc, status, k, len, cfg->mode, NULL) == SE_OK)) {
+        for (i = 0, q = 0; i < k; i++)
+            if (status[i] == SE_SHOT_USED) {
+                size_t b, e;
+                se_stack_align_span(onsets[i], pre, len, n, &b, &e);
+                CHECK(se_stack_align(x + b, b, e - b, n, onsets[i], pre, len, rows + q * len, NULL) ==
+                      SE_OK);
+                CHECK(se_stack_acc_shot(&acc, q, rows + q * len, q ? rows + (q - 1) * len : NULL,
+                                        NULL) == SE_OK);
+                q++;
+            }
+        se_stack_acc_shot_end(&acc);
+        memset(&got, 0, sizeof got);
+        if (CHECK(se_stack_acc_gain(&acc, &got, NULL) == SE_OK)) {
+            CHECK(memcmp(acc.stacked, whole->stacked, len * sizeof *acc.stacked) == 0);
+            CHECK(got.gain_db == whole->gain_db && got.noise_stacked == whole->noise_stacked);
+        }
+        CHECK(se_stack_acc_shot(&acc, 0, rows, NULL, NULL) == SE_ERR_ARG); /* out of order */
     }
 out:
     se_stack_acc_free(&acc);

@@ -153,7 +153,7 @@ se_status se_stack_misfit_screen(const double *misfit, size_t k, se_shot_status 
  * len: the stack, the alternating-sign mean and the strided sample of the consecutive differences
  * that the gain takes (se_noise_mad's positions over the (used - 1) len differences). */
 typedef struct se_stack_acc {
-    size_t len, k, nu, ne, stride, nd;
+    size_t len, k, nu, ne, stride, nd, next; /* next: shots taken by se_stack_acc_shot */
     se_stack_mode mode;
     double *stacked;   /* [size: len] owned */
     double *alt;       /* [size: len] owned */
@@ -167,6 +167,14 @@ se_status se_stack_acc_init(se_stack_acc *a, const se_shot_status *status, size_
 /* Lags j0 .. j0 + w - 1 of the aligned segments, seg as for se_stack_misfit_part. Error:
  * allocation. */
 se_status se_stack_acc_part(se_stack_acc *a, const double *seg, size_t j0, size_t w, se_error *err);
+/* The mean stack shot by shot instead (SE_STACK_MEAN only, what a caller that cannot hold every
+ * shot at a lag does): the q-th used shot's whole aligned segment seg [size: len], in the order of
+ * the used shots, prev the (q-1)-th's (NULL for q = 0); then se_stack_acc_shot_end once. The same
+ * sums in the same order as se_stack_acc_part. Error: SE_ERR_ARG for the trimmed mean or a shot
+ * out of order. */
+se_status se_stack_acc_shot(se_stack_acc *a, size_t q, const double *seg, const double *prev,
+                            se_error *err);
+void se_stack_acc_shot_end(se_stack_acc *a);
 /* Once every lag was added: noise_single, noise_stacked, gain_db and expected_gain_db into res
  * (the other fields untouched). Error: from se_noise_mad. */
 se_status se_stack_acc_gain(const se_stack_acc *a, se_stack_result *res, se_error *err);

@@ -567,6 +567,38 @@ se_status se_stack_acc_part(se_stack_acc *a, const double *seg, size_t j0, size_
     return SE_OK;
 }
 
+se_status se_stack_acc_shot(se_stack_acc *a, size_t q, const double *seg, const double *prev,
+                            se_error *err)
+{
+    size_t j;
+    if (a->mode != SE_STACK_MEAN || q != a->next || q >= a->nu || (q > 0 && prev == NULL))
+        return se_fail(err, SE_ERR_ARG, "stack: shot %zu of %zu out of order, or not a mean", q,
+                       a->nu);
+    for (j = 0; j < a->len; j++)
+        a->stacked[j] += seg[j];
+    if (q < a->ne) {
+        double sgn = q % 2 ? -1.0 : 1.0;
+        for (j = 0; j < a->len; j++)
+            a->alt[j] += sgn * seg[j];
+    }
+    if (q > 0) { /* the differences of the pair (q - 1, q): positions (q - 1) len + j */
+        size_t at0 = (q - 1) * a->len, at = (at0 + a->stride - 1) / a->stride * a->stride;
+        for (; at < at0 + a->len; at += a->stride)
+            a->dsamp[at / a->stride] = (prev[at - at0] - seg[at - at0]) / sqrt(2.0);
+    }
+    a->next++;
+    return SE_OK;
+}
+
+void se_stack_acc_shot_end(se_stack_acc *a)
+{
+    size_t j;
+    for (j = 0; j < a->len; j++) {
+        a->stacked[j] = a->stacked[j] / (double)a->nu;
+        a->alt[j] = a->alt[j] / (double)a->ne;
+    }
+}
+
 se_status se_stack_acc_gain(const se_stack_acc *a, se_stack_result *res, se_error *err)
 {
     se_noise nz1, nzn;

@@ -2198,16 +2198,49 @@ static se_status se_stream_stack(se_src *src_in, size_t n, int pilot_ch, const s
         if (nu >= 2) {
             if ((st = se_stack_acc_init(&acc, sr.status, k, len, sc.mode, err)) != SE_OK)
                 goto done;
-            for (j0 = 0; j0 < len; j0 += w) {
-                size_t ww = len - j0 < w ? len - j0 : w;
-                if (!keep && (st = se_stack_fill(&rsrc, n, sr.onsets, sr.status, k, pre, len, j0,
-                                                 ww, rows, xwin, segbuf, err)) != SE_OK)
+            if (!keep && sc.mode == SE_STACK_MEAN) {
+                /* the mean needs no shot beside another: one read and alignment per shot, the
+                 * previous one kept for the differences */
+                double *prev = malloc(len * sizeof *prev);
+                size_t q = 0, b, e;
+                if (prev == NULL) {
+                    st = se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate a shot of %zu samples", len);
                     goto done;
-                if ((st = se_stack_acc_part(&acc, rows, j0, ww, err)) != SE_OK)
+                }
+                for (i = 0; i < k && st == SE_OK; i++) {
+                    if (sr.status[i] != SE_SHOT_USED)
+                        continue;
+                    se_stack_align_span(sr.onsets[i], pre, len, n, &b, &e);
+                    if (e > b)
+                        st = se_read_range(&rsrc, b, e - b, xwin, err);
+                    if (st == SE_OK)
+                        st = se_stack_align(xwin, b, e - b, n, sr.onsets[i], pre, len, segbuf, err);
+                    if (st == SE_OK)
+                        st = se_stack_acc_shot(&acc, q, segbuf, q > 0 ? prev : NULL, err);
+                    if (st == SE_OK) {
+                        double *t = prev;
+                        prev = segbuf;
+                        segbuf = t;
+                        q++;
+                    }
+                }
+                free(prev);
+                if (st != SE_OK)
                     goto done;
+                se_stack_acc_shot_end(&acc);
+                info->stack_reads++;
+            } else {
+                for (j0 = 0; j0 < len; j0 += w) {
+                    size_t ww = len - j0 < w ? len - j0 : w;
+                    if (!keep && (st = se_stack_fill(&rsrc, n, sr.onsets, sr.status, k, pre, len,
+                                                     j0, ww, rows, xwin, segbuf, err)) != SE_OK)
+                        goto done;
+                    if ((st = se_stack_acc_part(&acc, rows, j0, ww, err)) != SE_OK)
+                        goto done;
+                }
+                if (!keep)
+                    info->stack_reads += (unsigned)parts;
             }
-            if (!keep)
-                info->stack_reads += (unsigned)parts;
             if ((st = se_stack_acc_gain(&acc, &sr, err)) != SE_OK)
                 goto done;
         }
