@@ -26,9 +26,9 @@
  * then each candidate's span is read back and aligned (phase ramp), and the misfit test and the
  * stack (mean or trimmed mean) take the aligned segments part of the interval by part, as many
  * lags at a time as scfg->stack_memory holds for every shot (one part when it all fits; else
- * the spans are read and aligned again for each part, twice: once for the misfit, once for the
- * stack). se_locate then runs on the stack, one interval long, as after its own stacking
- * (se_stack_given), so shots_found, shots_used, stack_gain_db and shot_interval_s, the events and
+ * the spans are read and aligned again for each part, for the misfit and again for a trimmed
+ * mean, while the mean takes the shots one by one in one more read). se_locate then runs on the
+ * stack, one interval long, as after its own stacking (se_stack_given), so shots_found, shots_used, stack_gain_db and shot_interval_s, the events and
  * their multiple / previous-shot labels are se_locate's (the stack within rounding of se_locate's
  * own: the same operations in the same order, so bit for bit in the tests). When several shots
  * are found but fewer than two are usable, se_locate runs on the one usable (or first) shot's
@@ -80,10 +80,11 @@ typedef struct se_stream_config {
     const char *wisdom_path;  /* FFTW wisdom file (see se_xcorr_config), NULL = none */
     int measure;              /* 1: FFTW_MEASURE when the wisdom lacks the size (then the values
                                  differ from se_locate's ESTIMATE plans by rounding only) */
-    size_t stack_memory;      /* repeated shots: bytes for the aligned segments the outlier test
-                                 and the stack look at lag by lag (0 = 256 MiB); when the shots
-                                 times the interval need more, the segments are aligned again for
-                                 each part of the interval that fits (more passes, same result) */
+    size_t stack_memory;      /* repeated shots: bytes for the aligned segments the misfit test
+                                 (and the trimmed mean) look at lag by lag (0 = 256 MiB); when the
+                                 shots times the interval need more, the segments are read and
+                                 aligned again for each part of the interval that fits (more
+                                 reads, same result; the mean itself goes shot by shot) */
 } se_stream_config;
 
 /* What the run read and did (filled as far as it got, also on failure). */
@@ -99,9 +100,10 @@ typedef struct se_stream_info {
                                  shot search on it, and then none more when they are stacked) */
     unsigned stack_reads;     /* other reads of the file for repeated shots: the energy screen of
                                  the pulse channel (1 with stacking on and a pulse channel), then,
-                                 when it may hold several shots, the clipping scan and one read of
-                                 the shots' spans per part of the interval (twice when the parts
-                                 are several, see stack_memory) */
+                                 when it may hold several shots, the clipping scan, one read of
+                                 the shots' spans per part of the interval for the misfit test,
+                                 and, when the parts are several (stack_memory), one more for the
+                                 mean or one per part again for the trimmed mean */
     size_t windows;           /* candidate windows recomputed (those reaching the threshold) */
     size_t window_samples;    /* r samples recomputed in them */
     se_xcorr_plan plan;       /* how the FFT plans were made */
