@@ -13,6 +13,7 @@ extern "C" {
 #endif
 
 struct se_distmap;
+struct se_stack_result;
 struct se_expected_event;
 
 /* Where the reference pulse came from (for the report). */
@@ -52,6 +53,12 @@ typedef struct se_locate_config {
      * response (then at least three consistent shots are needed). */
     int stacking;               /* SE_STACKING_AUTO, SE_STACKING_OFF or SE_STACKING_ROBUST */
     const double *pilot;
+    /* A stack made outside se_locate (the streaming pipeline, stream.c), borrowed, or NULL: the
+     * response is then already the stacked trace (n_used >= 2) or, with fewer usable shots, the
+     * first usable (or first) shot's segment starting max(0, floor(onsets[k]) - pre) of the
+     * record, and se_locate reports these shots (n_found, n_used, first_used, pre, onsets
+     * [size: n_found], gain_db, expected_gain_db are read) instead of searching for them. */
+    const struct se_stack_result *given_stack;
     /* Losses: attenuation of the line in dB per metre, one way (NaN = unknown: estimated from a
      * matched expected event of known coefficient, see se_locate_result.attenuation_db_per_m). */
     double attenuation_db_per_m;

@@ -180,27 +180,6 @@ void se_stack_acc_shot_end(se_stack_acc *a);
 se_status se_stack_acc_gain(const se_stack_acc *a, se_stack_result *res, se_error *err);
 void se_stack_acc_free(se_stack_acc *a);
 
-/* A stack made outside se_stack_shots (by the streaming locate) handed through se_locate, so that
- * it locates on it as on its own stack: se_stack_given_init(&g) marks g, the caller fills the
- * counts, and se_locate_config.pilot = se_stack_given_pilot(&g) with the stacked trace (n_used >= 2)
- * or, when fewer than two shots were usable, the first usable (or first) shot's segment as the
- * response, each followed by one extra sample (any finite value: se_locate then sees the record's
- * length change, as after its own stacking). se_stack_shots then reports the given shots instead
- * of searching: n_found, n_used, first_used, pre, onsets (copied), the gains, length = n - 1, and
- * stacked = a copy of x[0, n - 1) (n_used >= 2), or every onset = pre (fewer: the segment, which
- * se_locate_stack takes whole). The mark is a sentinel first value and g's own address; a real
- * pilot cannot carry both. */
-#define SE_STACK_GIVEN_TAG (-0x1.5ec5ec5ec5ec5p+1001)
-typedef struct se_stack_given {
-    double tag;             /* SE_STACK_GIVEN_TAG */
-    const void *self;       /* &g */
-    size_t n_found, n_used, first_used, pre;
-    const double *onsets;   /* [size: n_found] (borrowed) */
-    double gain_db, expected_gain_db, noise_single, noise_stacked;
-} se_stack_given;
-void se_stack_given_init(se_stack_given *g);
-const double *se_stack_given_pilot(const se_stack_given *g);
-
 /* Name of a shot status ("used", "clipped", "amplitude", "late", "misfit"). */
 const char *se_shot_status_name(se_shot_status s);
 

@@ -28,7 +28,7 @@
  * lags at a time as scfg->stack_memory holds for every shot (one part when it all fits; else
  * the spans are read and aligned again for each part, for the misfit and again for a trimmed
  * mean, while the mean takes the shots one by one in one more read). se_locate then runs on the
- * stack, one interval long, as after its own stacking (se_stack_given), so shots_found, shots_used, stack_gain_db and shot_interval_s, the events and
+ * stack, one interval long, as after its own stacking (se_locate_config.given_stack), so shots_found, shots_used, stack_gain_db and shot_interval_s, the events and
  * their multiple / previous-shot labels are se_locate's (the stack within rounding of se_locate's
  * own: the same operations in the same order, so bit for bit in the tests). When several shots
  * are found but fewer than two are usable, se_locate runs on the one usable (or first) shot's

@@ -43,7 +43,7 @@ static int se_window_clipped(const se_locate_result *res, size_t start, size_t m
 #define SE_FIT_MAX_PULSE 4096
 static se_status se_locate_stack(double **x, size_t *n, const double *pulse, size_t m,
                                  const se_locate_config *cfg, double rate_hz,
-                                 se_locate_result *res, size_t *pre, se_error *err);
+                                 se_locate_result *res, size_t *pre, int *stacked, se_error *err);
 static se_status se_refit_overlaps(const double *x, size_t n, const se_echo_model *mdl,
                                    const se_locate_result *res, const se_peak *direct,
                                    double thr, const se_noise_profile *prof, double kthr,
@@ -413,12 +413,13 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
     }
     res->shots_found = res->shots_used = 1;
     res->stack_expected_gain_db = 0.0;
-    if (cfg->stacking != SE_STACKING_OFF && m < n) {
-        size_t old_n = n, pre = 0;
-        st = se_locate_stack(&x, &n, ref, m, cfg, rate_hz, res, &pre, err);
+    if ((cfg->stacking != SE_STACKING_OFF || cfg->given_stack != NULL) && m < n) {
+        size_t pre = 0;
+        int stacked = 0;
+        st = se_locate_stack(&x, &n, ref, m, cfg, rate_hz, res, &pre, &stacked, err);
         if (st != SE_OK)
             goto done;
-        if (n != old_n) {
+        if (stacked) {
             /* the first used shot's pulse now starts at sample pre of the stacked trace */
             if (lc.reference_offset != SIZE_MAX)
                 lc.reference_offset = pre;
@@ -1327,12 +1328,40 @@ se_status se_locate_events(const se_locate_stage *sg, const se_peak *peaks, size
  * times the shortest). */
 static se_status se_locate_stack(double **x, size_t *n, const double *pulse, size_t m,
                                  const se_locate_config *cfg, double rate_hz,
-                                 se_locate_result *res, size_t *pre, se_error *err)
+                                 se_locate_result *res, size_t *pre, int *stacked, se_error *err)
 {
     se_stack_config sc;
     se_stack_result sr;
     se_status st;
     size_t need = cfg->pilot != NULL ? 2 : 3;
+
+    if (cfg->given_stack != NULL) {
+        /* stacked outside (stream.c): *x already is the stack or the one shot's segment, made as
+         * below from a pilot, so only the report and the time origin follow */
+        const se_stack_result *g = cfg->given_stack;
+        if (g->n_found >= 2 && g->n_used >= 2) {
+            *pre = g->pre;
+            res->shots_found = g->n_found;
+            res->shots_used = g->n_used;
+            res->stack_gain_db = g->gain_db;
+            res->stack_expected_gain_db = g->expected_gain_db;
+            res->shot_interval_s = (g->onsets[g->n_found - 1] - g->onsets[0]) /
+                                   (double)(g->n_found - 1) / rate_hz;
+            *stacked = 1;
+        } else if (g->n_found >= 2) {
+            double o = floor(g->onsets[g->n_used > 0 ? g->first_used : 0]);
+            size_t b = o > (double)g->pre ? (size_t)o - g->pre : 0;
+            *pre = (size_t)o - b;
+            res->shots_found = g->n_found;
+            res->shots_used = 1;
+            *stacked = 1;
+        }
+        (void)x;
+        (void)n;
+        (void)pulse;
+        (void)m;
+        return SE_OK;
+    }
 
     se_stack_config_init(&sc);
     sc.pilot = cfg->pilot;
@@ -1373,6 +1402,7 @@ static se_status se_locate_stack(double **x, size_t *n, const double *pulse, siz
         /* the mean interval between the shots found (their echoes' overlap, se_locate_events) */
         res->shot_interval_s = (sr.onsets[sr.n_found - 1] - sr.onsets[0]) /
                                (double)(sr.n_found - 1) / rate_hz;
+        *stacked = 1;
     } else if (cfg->pilot != NULL && sr.n_found >= 2 && sr.length > 0) {
         size_t k = sr.n_used > 0 ? sr.first_used : 0, b, len = sr.length, i;
         double o = floor(sr.onsets[k]);
@@ -1385,6 +1415,7 @@ static se_status se_locate_stack(double **x, size_t *n, const double *pulse, siz
         *pre = (size_t)o - b;
         res->shots_found = sr.n_found;
         res->shots_used = 1;
+        *stacked = 1;
     }
     se_stack_result_free(&sr);
     return SE_OK;

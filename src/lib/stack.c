@@ -621,68 +621,6 @@ se_status se_stack_acc_gain(const se_stack_acc *a, se_stack_result *res, se_erro
     return SE_OK;
 }
 
-/* ---- A stack given from outside ---- */
-
-void se_stack_given_init(se_stack_given *g)
-{
-    memset(g, 0, sizeof *g);
-    g->tag = SE_STACK_GIVEN_TAG;
-    g->self = g;
-}
-
-const double *se_stack_given_pilot(const se_stack_given *g)
-{
-    return &g->tag; /* a pointer to a structure points to its first member (C11 6.7.2.1) */
-}
-
-/* The given stack behind a pilot pointer, or NULL for a real pilot. */
-static const se_stack_given *se_given_of(const double *pilot)
-{
-    double t;
-    const void *self;
-    if (pilot == NULL)
-        return NULL;
-    memcpy(&t, pilot, sizeof t);
-    if (t != SE_STACK_GIVEN_TAG)
-        return NULL;
-    memcpy(&self, (const char *)pilot + offsetof(se_stack_given, self), sizeof self);
-    if (self != (const void *)pilot)
-        return NULL;
-    return (const se_stack_given *)(const void *)pilot;
-}
-
-static se_status se_stack_from_given(const se_stack_given *g, const double *x, size_t n,
-                                     se_stack_result *res, se_error *err)
-{
-    size_t i, k = g->n_found;
-    res->n_found = k;
-    res->n_used = g->n_used;
-    res->first_used = g->first_used;
-    res->pre = g->pre;
-    res->length = n - 1; /* x carries one extra sample: se_locate sees its record change length */
-    res->onsets = se_calloc(k ? k : 1, sizeof *res->onsets, "shots", err);
-    res->amplitudes = se_calloc(k ? k : 1, sizeof *res->amplitudes, "shots", err);
-    res->status = se_calloc(k ? k : 1, sizeof *res->status, "shots", err);
-    if (res->onsets == NULL || res->amplitudes == NULL || res->status == NULL)
-        return SE_ERR_NOMEM;
-    if (g->n_used >= 2) {
-        for (i = 0; i < k; i++)
-            res->onsets[i] = g->onsets[i];
-        res->stacked = se_calloc(n - 1, sizeof *res->stacked, "stack", err);
-        if (res->stacked == NULL)
-            return SE_ERR_NOMEM;
-        memcpy(res->stacked, x, (n - 1) * sizeof *x);
-        res->noise_single = g->noise_single;
-        res->noise_stacked = g->noise_stacked;
-        res->gain_db = g->gain_db;
-        res->expected_gain_db = g->expected_gain_db;
-    } else {
-        for (i = 0; i < k; i++)
-            res->onsets[i] = (double)g->pre; /* the segment starts pre before the onset */
-    }
-    return SE_OK;
-}
-
 /* ---- The whole record ---- */
 
 se_status se_stack_shots(const double *x, size_t n, const se_stack_config *cfg, se_stack_result *res,
@@ -709,11 +647,6 @@ se_status se_stack_shots(const double *x, size_t n, const se_stack_config *cfg, 
     m = cfg->pulse_length;
     if (m < 3 || m >= n)
         return se_fail(err, SE_ERR_ARG, "stack: pulse of %zu samples for a %zu-sample trace", m, n);
-    {
-        const se_stack_given *g = se_given_of(cfg->pilot);
-        if (g != NULL)
-            return se_stack_from_given(g, x, n, res, err);
-    }
     src = cfg->pilot != NULL ? cfg->pilot : x;
     for (i = 0; i < n; i++)
         if (!isfinite(x[i]) || !isfinite(src[i]))

@@ -1789,7 +1789,7 @@ done:
  * the memory budget, every candidate's span is read back (se_stack_align_span) and aligned, and
  * se_stack_misfit_part / se_stack_acc_part take the part: lag by lag what se_stack_shots does on
  * its whole matrix. se_locate finally runs on the stack (or on the one usable shot's segment) as
- * its own se_locate_stack would have left it: through se_stack_given. */
+ * its own se_locate_stack would have left it: through se_locate_config.given_stack. */
 
 #define SE_STREAM_STACK_MEMORY ((size_t)256 << 20)
 #define SE_STREAM_REFINE_HALF (((size_t)1 << 17) + 8)
@@ -1881,7 +1881,7 @@ static se_status se_stream_stack(se_src *src_in, size_t n, int pilot_ch, const s
     se_shot_finder *fd = NULL;
     se_stack_config sc;
     se_stack_acc acc;
-    se_stack_given given;
+    se_stack_result given;
     se_stack_result sr;
     se_locate_config lc;
     se_xrun *runs = NULL;
@@ -2246,47 +2246,46 @@ static se_status se_stream_stack(se_src *src_in, size_t n, int pilot_ch, const s
         }
     }
 
-    /* se_locate on the stack (or on the one usable shot's segment), as after its own stacking;
-     * one extra sample so that it sees the record's length change (stack.h se_stack_given). */
-    se_stack_given_init(&given);
+    /* se_locate on the stack (or on the one usable shot's segment), as after its own stacking
+     * (se_locate_config.given_stack: these shots are reported, none searched for) */
+    memset(&given, 0, sizeof given);
     given.n_found = k;
     given.n_used = sr.n_used;
     given.first_used = sr.first_used;
     given.pre = pre;
+    given.length = len;
     given.onsets = sr.onsets;
     given.gain_db = sr.gain_db;
     given.expected_gain_db = sr.expected_gain_db;
     given.noise_single = sr.noise_single;
     given.noise_stacked = sr.noise_stacked;
     if (sr.n_used >= 2) {
-        x2 = malloc((len + 1) * sizeof *x2);
+        x2 = malloc(len * sizeof *x2);
         if (x2 == NULL) {
             st = se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate the stack of %zu samples", len);
             goto done;
         }
         memcpy(x2, acc.stacked, len * sizeof *x2);
-        x2[len] = 0.0;
     } else {
         size_t kk = sr.n_used > 0 ? sr.first_used : 0, b, ln = len;
         double o = floor(sr.onsets[kk]);
         b = o > (double)pre ? (size_t)o - pre : 0;
         if (b + ln > n)
             ln = n - b;
-        x2 = malloc((ln + 1) * sizeof *x2);
+        x2 = malloc(ln * sizeof *x2);
         if (x2 == NULL) {
             st = se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate a shot of %zu samples", ln);
             goto done;
         }
         if ((st = se_read_range(&rsrc, b, ln, x2, err)) != SE_OK)
             goto done;
-        x2[ln] = 0.0;
         len = ln;
     }
     lc = *cfg;
-    lc.pilot = se_stack_given_pilot(&given);
+    lc.given_stack = &given;
     if (lc.reference_offset != SIZE_MAX)
         lc.reference_offset = pre;
-    st = se_locate(x2, len + 1, rate, &lc, res, err);
+    st = se_locate(x2, len, rate, &lc, res, err);
     if (st != SE_OK)
         goto done;
     /* what se_locate's se_find_clipping found on the whole record (n_clip_runs is 0 after a stack) */
