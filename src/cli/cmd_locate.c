@@ -70,7 +70,8 @@ static const char se_locate_usage[] =
     "Output:\n"
     "  --json PATH              write the result as JSON (- for standard output)\n"
     "  --memory-limit MIB       largest recording read whole, MiB of samples as doubles (default\n"
-    "                           2048); a larger one is streamed in blocks (needs --pulse-channel)\n"
+    "                           2048); a larger one is streamed in blocks (needs --pulse-channel),\n"
+    "                           its repeated taps stacked within this limit (at most 256 MiB)\n"
     "  --stream                 stream the recording in blocks even when it fits in memory\n"
     "  --plot FILE              the reflectogram: .png, .svg or .pdf by the extension\n"
     "  --plot-size WxH          plot size, pixels (PNG) or points (SVG, PDF) (default 1200x700)\n"
@@ -416,6 +417,8 @@ int se_cmd_locate(int argc, char **argv)
         se_stream_config_init(&scfg);
         scfg.channel = (unsigned)(channel - 1);
         scfg.pulse_channel = (int)(pulse_channel - 1);
+        /* repeated taps are stacked within the memory limit (at most 256 MiB of shot segments) */
+        scfg.stack_memory = mem_mib < 256 ? (size_t)mem_mib << 20 : (size_t)256 << 20;
         cfg.reference_kind = SE_REF_CHANNEL;
         memset(&sinfo, 0, sizeof sinfo);
         if (isnan(cfg.source_reflection)) {
