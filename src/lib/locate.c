@@ -45,7 +45,8 @@ static se_status se_locate_stack(double **x, size_t *n, const double *pulse, siz
                                  const se_locate_config *cfg, double rate_hz,
                                  se_locate_result *res, size_t *pre, int *stacked, se_error *err);
 static se_status se_refit_overlaps(const double *x, size_t n, const se_echo_model *mdl,
-                                   const se_locate_result *res, const se_peak *direct,
+                                   const double *ref, const se_locate_result *res,
+                                   const se_peak *direct,
                                    double thr, const se_noise_profile *prof, double kthr,
                                    double hw, se_peak **peaks, size_t *npeaks, double **lag_sd,
                                    double **amp_sd, se_error *err);
@@ -599,7 +600,7 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
         }
     }
     if (mdl != NULL && cfg->fit_overlaps && npeaks > 0 && !skin) {
-        st = se_refit_overlaps(x, n, mdl, res, &direct, res->noise_floored ? INFINITY : thr,
+        st = se_refit_overlaps(x, n, mdl, ref, res, &direct, res->noise_floored ? INFINITY : thr,
                                varies ? &prof : NULL, kthr, se_acf_mainlobe_half_width(acf),
                                &peaks, &npeaks, &lag_sd, &amp_sd, err);
         if (st != SE_OK)
@@ -645,6 +646,10 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
             if (!isfinite(lag_sd[i]))
                 continue;
             ev->fitted = 1;
+            /* a fit whose timing reaches the main lobe (low SNR, or a group the model does not
+             * explain, se_refit_overlaps) is low confidence */
+            if (lag_sd[i] >= se_acf_mainlobe_half_width(acf))
+                ev->low_confidence = 1;
             ev->reflection_uncertainty = amp_sd[i] / fabs(a0) / fabs(one_plus_rs);
             /* the direct arrival's timing noise: the record's sigma (as se_locate_events) */
             st = se_event_uncertainty(map, z, lag_sd[i], sigma / (fabs(a0) * beta_crb), rate_hz, ev,
@@ -801,9 +806,12 @@ static se_status se_lbl_model(const double *tp, const double *ap, size_t np, dou
 
 /* Predicted field at time t (after the direct arrival) from f shifted by -shift: sum of the
  * paths within hw_s weighted exp(-(beta dt)^2 / 2); *spread gets the sum of their magnitudes.
- * Paths within two cells of a primary's own time tp[] (its first bounce) are left out. */
+ * Paths within two cells of a primary's own time tp[] (its first bounce) are left out, and so
+ * are paths nearer another detected event ev[nev] than t: that event, resolved by CLEAN or the
+ * fit, carries them (two echoes 0.8 main lobe apart are seen apart, not summed). */
 static double se_lbl_at(const se_lbl_field *f, double t, double shift, double hw_s, double beta,
-                        const double *tp, size_t np, double cell, double *spread)
+                        const double *tp, size_t np, double cell, const se_event *ev, size_t nev,
+                        double *spread)
 {
     double sum = 0.0;
     size_t lo = 0, hi = f->n, j, q;
@@ -821,6 +829,11 @@ static double se_lbl_at(const se_lbl_field *f, double t, double shift, double hw
         for (q = 0; q < np && shift == 0.0; q++)
             if (fabs(f->a[j].time_s - tp[q]) < 2.0 * cell)
                 own = 1;
+        for (q = 0; q < nev && !own; q++) {
+            double pt = f->a[j].time_s - shift;
+            if (fabs(pt - ev[q].delay_s) < fabs(pt - t) - 0.5 * cell)
+                own = 1; /* nearer another event */
+        }
         if (own)
             continue;
         sum += f->a[j].amplitude * w;
@@ -834,16 +847,18 @@ static double se_lbl_at(const se_lbl_field *f, double t, double shift, double hw
  * *kbest the tap that contributes most. */
 static void se_lbl_fields(const se_lbl_field *own, const se_lbl_field *prev, double t,
                           double hw_s, double beta, const double *tp, size_t np, double cell,
-                          size_t nshots, double interval, double *p_own, double *s_own,
-                          double *p_prev, double *s_prev, int *kbest)
+                          const se_event *ev, size_t nev, size_t nshots, double interval,
+                          double *p_own, double *s_own, double *p_prev, double *s_prev,
+                          int *kbest)
 {
     size_t k;
     double best = 0.0;
-    *p_own = se_lbl_at(own, t, 0.0, hw_s, beta, tp, np, cell, s_own);
+    *p_own = se_lbl_at(own, t, 0.0, hw_s, beta, tp, np, cell, ev, nev, s_own);
     *p_prev = *s_prev = 0.0;
     *kbest = 0;
     for (k = 1; k < nshots && prev != NULL && prev->n > 0; k++) {
-        double s1, p1 = se_lbl_at(prev, t, (double)k * interval, hw_s, beta, tp, 0, cell, &s1);
+        double s1, p1 = se_lbl_at(prev, t, (double)k * interval, hw_s, beta, tp, 0, cell, ev, nev,
+                                  &s1);
         double wk = (double)(nshots - k) / (double)nshots;
         *p_prev += wk * p1;
         *s_prev += wk * s1;
@@ -898,8 +913,8 @@ static se_status se_label_multiples(se_event *ev, size_t n, const se_locate_stag
                                                           fabs(ev[best].reflection)))
                     best = i;
             taken[best] = 1;
-            se_lbl_fields(&prev, &prev, ev[best].delay_s, hw_s, beta, tp, np, cell, nshots,
-                          interval, &po, &so, &pp, &spp, &kb);
+            se_lbl_fields(&prev, &prev, ev[best].delay_s, hw_s, beta, tp, np, cell, ev, n,
+                          nshots, interval, &po, &so, &pp, &spp, &kb);
             tot = po + pp;
             if ((so + spp > 0.0 && fabs(ev[best].reflection - tot) <=
                                        3.0 * ev[best].reflection_uncertainty + 0.3 * so +
@@ -931,8 +946,8 @@ static se_status se_label_multiples(se_event *ev, size_t n, const se_locate_stag
         double te = ev[e].delay_s, ae = ev[e].reflection, sa = ev[e].reflection_uncertainty;
         double p_own, s_own, p_prev, s_prev, tot, sp;
         int kprev;
-        se_lbl_fields(&own, taps ? &prev : NULL, te, hw_s, beta, tp, np, cell, nshots, interval,
-                      &p_own, &s_own, &p_prev, &s_prev, &kprev);
+        se_lbl_fields(&own, taps ? &prev : NULL, te, hw_s, beta, tp, np, cell, ev, n, nshots,
+                      interval, &p_own, &s_own, &p_prev, &s_prev, &kprev);
         tot = p_own + p_prev;
         sp = s_own + s_prev;
         ev[e].multiple = 0;
@@ -1430,14 +1445,15 @@ static se_status se_locate_stack(double **x, size_t *n, const double *pulse, siz
  * CLEAN's estimates. *lag_sd, *amp_sd: [size: *npeaks],
  * NaN where CLEAN's estimate was kept. */
 static se_status se_refit_overlaps(const double *x, size_t n, const se_echo_model *mdl,
-                                   const se_locate_result *res, const se_peak *direct,
+                                   const double *ref, const se_locate_result *res,
+                                   const se_peak *direct,
                                    double thr_all, const se_noise_profile *prof, double kthr,
                                    double hw, se_peak **peaks, size_t *npeaks, double **lag_sd,
                                    double **amp_sd, se_error *err)
 {
     size_t m = se_echo_model_length(mdl), np = *npeaks, g0, g1, i, j, nout = 0, cap;
     se_peak *in = *peaks, *out = NULL;
-    double *lsd = NULL, *asd = NULL, *w = NULL;
+    double *lsd = NULL, *asd = NULL, *w = NULL, *resid = NULL, *rr = NULL;
     se_echo init[16];
     se_status st = SE_OK;
 
@@ -1446,7 +1462,9 @@ static se_status se_refit_overlaps(const double *x, size_t n, const se_echo_mode
     lsd = se_calloc(cap, sizeof *lsd, "fitted peaks", err);
     asd = se_calloc(cap, sizeof *asd, "fitted peaks", err);
     w = se_calloc(4 * m + 8, sizeof *w, "fit window", err);
-    if (out == NULL || lsd == NULL || asd == NULL || w == NULL) {
+    resid = se_calloc(4 * m + 8, sizeof *resid, "fit residual", err);
+    rr = se_calloc(4 * m + 8, sizeof *rr, "fit residual", err);
+    if (out == NULL || lsd == NULL || asd == NULL || w == NULL || resid == NULL || rr == NULL) {
         st = SE_ERR_NOMEM;
         goto fail;
     }
@@ -1519,6 +1537,32 @@ static se_status se_refit_overlaps(const double *x, size_t n, const se_echo_mode
         if (no == 0 || (no == ng && !close) || (no > ng && !isfinite(split_thr)))
             keep = 0;
         if (keep) {
+            /* Does the model explain the window? The matched filter of the fit's residual must
+             * stay below the detection threshold over the group. When it does not (echoes the
+             * fit cannot place, e.g. a splice and a clamp a fraction of the main lobe apart with
+             * their internal reverberation), the fitted positions are biased far beyond their
+             * covariance: the group is kept but low confidence, its timing widened to the main
+             * lobe (as below the SNR limit) and its amplitudes to what the model misses. */
+            double rmax = 0.0;
+            int mismatch = 0;
+            if (isfinite(split_thr) && len > m) {
+                size_t k, k0 = 0, k1 = len - m;
+                double a = floor(lo - (double)b - hw), z = ceil(hi - (double)b + hw);
+                if (a > 0.0)
+                    k0 = (size_t)a;
+                if (z < (double)k1)
+                    k1 = z > 0.0 ? (size_t)z : 0;
+                for (i = 0; i < len; i++) {
+                    resid[i] = w[i];
+                    for (q = 0; q < no; q++)
+                        resid[i] -= fit[q].amplitude *
+                                    se_echo_model_value(mdl, (double)i - fit[q].lag, NULL);
+                }
+                se_xcorr_direct(resid, len, ref, m, rr);
+                for (k = k0; k <= k1 && k < len; k++)
+                    rmax = fmax(rmax, fabs(rr[k]));
+                mismatch = rmax > split_thr;
+            }
             if (nout + no > cap) {
                 free(fit);
                 goto keep_clean;
@@ -1527,8 +1571,8 @@ static se_status se_refit_overlaps(const double *x, size_t n, const se_echo_mode
                 out[nout].lag = fit[q].lag + (double)b;
                 out[nout].amplitude = fit[q].amplitude;
                 out[nout].index = (size_t)floor(out[nout].lag + 0.5);
-                lsd[nout] = fit[q].lag_sd;
-                asd[nout] = fit[q].amplitude_sd;
+                lsd[nout] = mismatch ? fmax(fit[q].lag_sd, hw) : fit[q].lag_sd;
+                asd[nout] = mismatch ? fmax(fit[q].amplitude_sd, rmax) : fit[q].amplitude_sd;
                 nout++;
             }
             free(fit);
@@ -1545,6 +1589,8 @@ static se_status se_refit_overlaps(const double *x, size_t n, const se_echo_mode
         }
     }
     free(w);
+    free(resid);
+    free(rr);
     free(*peaks);
     *peaks = out;
     *npeaks = nout;
@@ -1556,6 +1602,8 @@ fail:
     free(lsd);
     free(asd);
     free(w);
+    free(resid);
+    free(rr);
     return st;
 }
 
