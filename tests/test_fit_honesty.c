@@ -1,11 +1,14 @@
-/* Honest intervals for echoes the overlap fit cannot place. A splice (+0.2) 0.283 m in front of a
- * clamp (-0.8) on a tether tapped with a 20 ms Hann pulse at 48 kHz lies a fifth of the main lobe
- * apart, and the lattice record holds their internal reverberation too (the clamp's echo bounced
- * between them: -0.123 at 40.566 m, ...): a fit of independent echoes places them biased by
- * decimetres while its covariance says millimetres. The locator must see that the residual still
- * holds an echo above the threshold and widen those intervals (low confidence), so that every
- * reported interval covers its reflector; a pair 0.8 m apart (resolved) keeps its narrow ones,
- * and its reverberation, each path seen as its own event, is all labelled multiple.
+/* Honest intervals for echoes a model of independent echoes cannot place. A splice (+0.2) 0.283 m
+ * in front of a clamp (-0.8) on a tether tapped with a 20 ms Hann pulse at 48 kHz lies a fifth of
+ * the main lobe apart, and the lattice record holds their internal reverberation too (the clamp's
+ * echo bounced between them: -0.123 at 40.566 m, ...): a fit of independent echoes places them
+ * biased by decimetres while its covariance says millimetres. The locator sees that the residual
+ * still holds an echo above the threshold and then fits the layered model (se_layerfit: the two
+ * primaries generate every internal multiple), which explains the window: two events, not low
+ * confidence, intervals below 5 cm, covering the truth in at least 34 of 40 (20 seeds) and within
+ * twice the interval in all. The end at 150 m, with the pair's transmission reverberation behind
+ * it, is checked for what holds (see case 1). A pair 0.8 m apart (resolved) keeps its narrow
+ * intervals, and its reverberation, each path seen as its own event, is all labelled multiple.
  * Records from the lattice simulator (P.L. Goupillaud's equal-travel-time lattice), seeds fixed;
  * tolerances are common practice, no source. */
 #include <math.h>
@@ -20,8 +23,9 @@
 #include "testutil.h"
 
 static const double fs = 48000.0;
+#define SE_SEEDS 20 /* noise seeds of case 1 */
 
-static int run(double splice_m, double clamp_m, se_locate_result *res)
+static int run(double splice_m, double clamp_m, unsigned long seed, se_locate_result *res)
 {
     const double v = sqrt(100000.0 / 5.0);
     se_sim_reflector rf[2] = {{0.0, 0.2}, {0.0, -0.8}};
@@ -48,7 +52,7 @@ static int run(double splice_m, double clamp_m, se_locate_result *res)
     x = malloc(n * sizeof *x);
     p = malloc(n * sizeof *p);
     if (!CHECK(x != NULL && p != NULL) || !CHECK(se_simulate(&line, &rec, x, p, n, &err) == SE_OK) ||
-        !CHECK(se_fd_add_noise(x, n, 0.003, 7, &err) == SE_OK) ||
+        !CHECK(se_fd_add_noise(x, n, 0.003, seed, &err) == SE_OK) ||
         !CHECK(se_pulse_support(p, n, &b, &e, &err) == SE_OK))
         goto out;
     se_locate_config_init(&cfg);
@@ -100,23 +104,76 @@ int main(void)
     se_locate_result res;
     const se_event *s, *c;
 
-    /* 1. A fifth of the main lobe apart: two events, flagged, each interval covering the truth. */
-    if (run(40.0, 40.283, &res)) {
-        show("splice 0.283 m before the clamp", &res);
-        s = nearest(&res, 40.0, +1);
-        c = nearest(&res, 40.283, -1);
-        if (CHECK(s != NULL && c != NULL)) {
-            CHECK(s->low_confidence && c->low_confidence);
-            CHECK_CLOSE(s->distance_m, 40.0, s->distance_uncertainty_m,
-                        "the splice within its stated 95 % interval");
-            CHECK_CLOSE(c->distance_m, 40.283, c->distance_uncertainty_m,
-                        "the clamp within its stated 95 % interval");
+    /* 1. A fifth of the main lobe apart: the independent fit is flagged; the layered fit
+     * (se_layerfit: the two primaries generate their internal multiples) explains the window and
+     * gives two events, not low confidence, with narrow intervals that cover the truth. */
+    {
+        unsigned long seed;
+        size_t inside = 0, events = 0, wide = 0, end_inside = 0, tail = 0;
+        for (seed = 1; seed <= SE_SEEDS; seed++) {
+            if (!run(40.0, 40.283, seed, &res))
+                break;
+            if (seed == 7 || getenv("SE_SHOW") != NULL)
+                show("splice 0.283 m before the clamp", &res);
+            s = nearest(&res, 40.0, +1);
+            c = nearest(&res, 40.283, -1);
+            if (CHECK(s != NULL && c != NULL)) {
+                CHECK(!s->low_confidence && !c->low_confidence);
+                CHECK(s->distance_uncertainty_m < 0.05 && c->distance_uncertainty_m < 0.05);
+                /* no gross error: within twice the stated interval in every trial */
+                CHECK_CLOSE(s->distance_m, 40.0, 2.0 * s->distance_uncertainty_m,
+                            "the splice within twice its stated 95 % interval");
+                CHECK_CLOSE(c->distance_m, 40.283, 2.0 * c->distance_uncertainty_m,
+                            "the clamp within twice its stated 95 % interval");
+                inside += fabs(s->distance_m - 40.0) <= s->distance_uncertainty_m;
+                inside += fabs(c->distance_m - 40.283) <= c->distance_uncertainty_m;
+                events += 2;
+            }
+            {
+                /* The end at 150 m comes back through the pair twice: its echo E is followed by
+                 * the pair's transmission reverberation E (n + 1) q^n at n 0.283 m, q = -r1 r2
+                 * (0.32 E, 0.077 E, 0.016 E): no layer, so neither fit models it. What holds:
+                 * the end is a primary within twice its interval (the independent fit of the
+                 * train biases it by up to 3 mm, beyond its stated 1.7 mm in some trials), the
+                 * first follower (150.283 m) is labelled a multiple, and any other primary is
+                 * the small remainder of the train within a metre behind the end (the next two
+                 * paths fitted as one echo, whose size then differs from the sum predicted). */
+                const se_event *end = nearest(&res, 150.0, -1);
+                size_t i;
+                int follower = 0, stray = 0;
+                if (CHECK(end != NULL)) {
+                    CHECK_CLOSE(end->distance_m, 150.0, 2.0 * end->distance_uncertainty_m,
+                                "the end within twice its stated 95 % interval");
+                    end_inside += fabs(end->distance_m - 150.0) <= end->distance_uncertainty_m;
+                    wide += end->low_confidence;
+                }
+                for (i = 0; i < res.n_events; i++) {
+                    const se_event *ev = &res.events[i];
+                    if (ev->multiple && fabs(ev->distance_m - 150.3) < 0.05)
+                        follower = 1;
+                    if (!ev->multiple && ev != s && ev != c && ev != end) {
+                        if (ev->distance_m > 150.5 && ev->distance_m < 151.0 &&
+                            fabs(ev->reflection) < 0.03)
+                            tail++;
+                        else
+                            stray = 1;
+                    }
+                }
+                CHECK(follower);
+                CHECK(!stray);
+            }
+            se_locate_result_free(&res);
         }
+        printf("case 1: %zu of %zu events within their stated 95 %% interval; the end within its "
+               "interval in %zu of %d, its group flagged in %zu, the train's remainder a primary "
+               "in %zu\n", inside, events, end_inside, SE_SEEDS, wide, tail);
+        /* a 95 % interval: at least 34 of 40 (measured 36 of 40 here, 80 of 88 in 44 seeds: the
+         * linearised covariance is about 1.3 times optimistic at this separation) */
+        CHECK(events == 2 * SE_SEEDS && inside >= 34);
     }
-    se_locate_result_free(&res);
 
     /* 2. 0.8 m apart (about half the main lobe): resolved, narrow intervals, not flagged. */
-    if (run(40.0, 40.8, &res)) {
+    if (run(40.0, 40.8, 7, &res)) {
         show("splice 0.8 m before the clamp", &res);
         s = nearest(&res, 40.0, +1);
         c = nearest(&res, 40.8, -1);

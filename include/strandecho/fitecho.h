@@ -89,6 +89,57 @@ se_status se_fitecho(const se_echo_model *mdl, const double *x, size_t n,
                      const se_fitecho_config *cfg, const se_echo *init, size_t n_init,
                      se_echo **out, size_t *n_out, double *bic, double *sigma_used, se_error *err);
 
+/* Layered fit: two interfaces whose echoes include their internal reverberation.
+ *
+ * Two reflection coefficients r1 (first) and r2 at lags tau1 < tau2 (samples), seen through a gain
+ * g (everything between the source and the first interface: transmissions, losses; 1 for
+ * interfaces seen directly) give, in seen amplitudes (r's units, the lattice's sign convention)
+ *     g r1                             at tau1            (first primary)
+ *     g (1 - r1^2) r2                  at tau2            (second primary)
+ *     g (1 - r1^2) r2 (-r1 r2)^n       at tau2 + n (tau2 - tau1), n = 1, 2, ...  (internal multiples)
+ * kept down to min_fraction of the larger primary. The parameters (tau1, tau2, r1, r2 and, unless
+ * fixed, g) are fitted by nonlinear least squares (gsl_multifit_nlinear, as se_fitecho, with the
+ * analytic Jacobian from the pulse derivative); |r_i| < 1 is required of the result. A model of
+ * independent echoes cannot place such a train when the interfaces are a fraction of the main
+ * lobe apart (each multiple is then inside the lobe of the primaries); this one explains every
+ * arrival of the train by the two primaries. */
+typedef struct se_layerfit_config {
+    size_t begin, end;   /* window of x fitted, [begin, end) (required: end > begin) */
+    double min_fraction; /* multiples kept down to this fraction of the larger primary (0 = 1e-4) */
+    double gain;         /* g when fix_gain (0 = 1) */
+    int fix_gain;        /* nonzero: g fixed at gain (4 parameters); 0: g fitted too (5) */
+    double sigma;        /* noise standard deviation per sample; 0 = from the residual,
+                            RSS / (N - p) */
+} se_layerfit_config;
+
+/* Zeroes cfg: multiples down to 1e-4, gain fitted, sigma from the residual. */
+void se_layerfit_config_init(se_layerfit_config *cfg);
+
+typedef struct se_layerfit_result {
+    se_echo primary[2];  /* the two primaries: lag (samples), seen amplitude (g r1, and
+                            g (1 - r1^2) r2), their standard uncertainties from the covariance
+                            sigma^2 (J^T J)^-1 propagated to the seen amplitudes, and corr */
+    double r[2], r_sd[2];/* interface coefficients and their standard uncertainties */
+    double gain, gain_sd;/* g (gain_sd 0 when fixed) */
+    size_t n_arrivals;   /* arrivals in the model (2 primaries + multiples kept) */
+    double rss;          /* residual sum of squares over the window */
+    double sigma;        /* the sigma used */
+} se_layerfit_result;
+
+/* Fit x [size: n] in cfg's window, started from init [size: 2] (two echoes, lags as in se_echo,
+ * e.g. se_fitecho's; sorted here; r1 = a1 / g, r2 = a2 / (g (1 - r1^2)) with g = 1 or the fixed
+ * gain). A valid fit from there (converged, |r| < 1, tau1 < tau2, both primaries overlapping
+ * the window) is kept; when there is none, the fit is started from 8 separations (1/8 .. 1 of the
+ * pulse's main-lobe half width) about their amplitude-weighted centre and the valid fit with the
+ * lowest RSS is kept.
+ * resid (may be NULL) [size: end - begin] receives x - model over the window.
+ * Errors: NULL arguments, a window outside x or shorter than 16 samples, non-finite starts
+ * (SE_ERR_ARG); a non-finite x in the window (SE_ERR_DATA, named); allocation (SE_ERR_NOMEM); no
+ * start converged to a valid fit (SE_ERR_NUMERIC). */
+se_status se_layerfit(const se_echo_model *mdl, const double *x, size_t n,
+                      const se_layerfit_config *cfg, const se_echo init[2],
+                      se_layerfit_result *out, double *resid, se_error *err);
+
 #ifdef __cplusplus
 }
 #endif

@@ -796,3 +796,301 @@ nomem:
     free(res);
     return err ? err->code : SE_ERR_NOMEM;
 }
+
+/* ---- Layered fit (se_layerfit) ---- */
+
+#define SE_LAYER_MAX_MULT 400
+
+/* What the layered least-squares problem needs. p = (tau1, tau2, r1, r2[, g]). */
+typedef struct se_layer_problem {
+    const se_echo_model *mdl;
+    const double *x; /* x + begin */
+    size_t nwin;
+    double begin;
+    double frac;     /* multiples kept down to frac of the larger primary */
+    double gain;     /* g when fixed */
+    int free_gain;
+} se_layer_problem;
+
+/* Arrival j of the model at p (j = 0: first primary, j = 1 + n: second primary and its n-th
+ * multiple), with its amplitude A, lag L, dA/dp and dL/dp [size: 5]. Returns 0 past the last one
+ * kept (below frac of the larger primary, beyond the window, or SE_LAYER_MAX_MULT multiples). */
+static int se_layer_arrival(const se_layer_problem *pr, const double *p, size_t j, double *A,
+                            double *L, double dA[5], double dL[5])
+{
+    double t1 = p[0], t2 = p[1], r1 = p[2], r2 = p[3], g = pr->free_gain ? p[4] : pr->gain;
+    double big = fmax(fabs(g * r1), fabs(g * (1.0 - r1 * r1) * r2)), q = -r1 * r2, qn, sr;
+    size_t n, i;
+
+    for (i = 0; i < 5; i++)
+        dA[i] = dL[i] = 0.0;
+    if (j == 0) {
+        *A = g * r1;
+        *L = t1;
+        dL[0] = 1.0;
+        dA[2] = g;
+        dA[4] = r1;
+        return 1;
+    }
+    n = j - 1;
+    if (n > SE_LAYER_MAX_MULT)
+        return 0;
+    *L = t2 + (double)n * (t2 - t1);
+    if (n > 0 && *L > pr->begin + (double)pr->nwin + 2.0)
+        return 0;
+    qn = pow(q, (double)n);
+    *A = g * (1.0 - r1 * r1) * r2 * qn;
+    if (n > 0 && !(fabs(*A) >= pr->frac * big))
+        return 0;
+    dL[0] = -(double)n;
+    dL[1] = (double)n + 1.0;
+    /* A = g (-1)^n (1 - r1^2) r1^n r2^(n+1) */
+    sr = (n % 2 ? -1.0 : 1.0) * pow(r2, (double)n + 1.0); /* (-1)^n r2^(n+1) */
+    dA[2] = g * sr * ((double)n * (n > 0 ? pow(r1, (double)n - 1.0) : 0.0) -
+                      ((double)n + 2.0) * pow(r1, (double)n + 1.0));
+    dA[3] = g * (1.0 - r1 * r1) * ((double)n + 1.0) * qn;
+    dA[4] = (1.0 - r1 * r1) * r2 * qn;
+    return 1;
+}
+
+/* f_i = x_i - sum_j A_j s(i - L_j) */
+static int se_layer_f(const gsl_vector *pv, void *data, gsl_vector *f)
+{
+    const se_layer_problem *pr = data;
+    double p[5], A, L, dA[5], dL[5];
+    size_t i, j, np = pv->size;
+
+    for (i = 0; i < 5; i++)
+        p[i] = i < np ? gsl_vector_get(pv, i) : 0.0;
+    for (i = 0; i < pr->nwin; i++)
+        gsl_vector_set(f, i, pr->x[i]);
+    for (j = 0; se_layer_arrival(pr, p, j, &A, &L, dA, dL); j++) {
+        double t0 = pr->begin - L;
+        for (i = 0; i < pr->nwin; i++) {
+            double t = t0 + (double)i;
+            if (t < -2.0 || t > (double)pr->mdl->m + 1.0)
+                continue;
+            gsl_vector_set(f, i, gsl_vector_get(f, i) - A * se_echo_model_value(pr->mdl, t, NULL));
+        }
+    }
+    return GSL_SUCCESS;
+}
+
+/* df_i/dp = -sum_j (dA_j/dp s(t) - A_j s'(t) dL_j/dp),  t = i - L_j */
+static int se_layer_df(const gsl_vector *pv, void *data, gsl_matrix *J)
+{
+    const se_layer_problem *pr = data;
+    double p[5], A, L, dA[5], dL[5];
+    size_t i, j, c, np = pv->size;
+
+    for (i = 0; i < 5; i++)
+        p[i] = i < np ? gsl_vector_get(pv, i) : 0.0;
+    gsl_matrix_set_zero(J);
+    for (j = 0; se_layer_arrival(pr, p, j, &A, &L, dA, dL); j++) {
+        double t0 = pr->begin - L;
+        for (i = 0; i < pr->nwin; i++) {
+            double t = t0 + (double)i, v, d;
+            if (t < -2.0 || t > (double)pr->mdl->m + 1.0)
+                continue;
+            v = se_echo_model_value(pr->mdl, t, &d);
+            for (c = 0; c < np; c++)
+                gsl_matrix_set(J, i, c, gsl_matrix_get(J, i, c) - (dA[c] * v - A * d * dL[c]));
+        }
+    }
+    return GSL_SUCCESS;
+}
+
+void se_layerfit_config_init(se_layerfit_config *cfg)
+{
+    memset(cfg, 0, sizeof *cfg);
+}
+
+/* One Levenberg-Marquardt fit from p0 [size: np]. Returns 1 and fills *out (and *rss) for a
+ * valid fit (converged, |r| < 1, tau1 < tau2, both primaries overlapping the window), 0 when not,
+ * -1 on allocation failure. */
+static int se_layer_run(const se_layer_problem *pr, const double *p0v, size_t np, double sigma,
+                        se_layerfit_result *out, se_error *err)
+{
+    const gsl_multifit_nlinear_type *T = gsl_multifit_nlinear_trust;
+    gsl_multifit_nlinear_parameters par = gsl_multifit_nlinear_default_parameters();
+    gsl_multifit_nlinear_fdf fdf;
+    gsl_multifit_nlinear_workspace *w = NULL;
+    gsl_vector *p0 = NULL;
+    gsl_matrix *cov = NULL;
+    size_t i, j;
+    int info = 0, status, ok = 0;
+
+    if (pr->nwin <= np + 2)
+        return 0;
+    p0 = gsl_vector_alloc(np);
+    cov = gsl_matrix_alloc(np, np);
+    w = gsl_multifit_nlinear_alloc(T, &par, pr->nwin, np);
+    if (p0 == NULL || cov == NULL || w == NULL) {
+        gsl_vector_free(p0);
+        gsl_matrix_free(cov);
+        if (w != NULL)
+            gsl_multifit_nlinear_free(w);
+        se_fail(err, SE_ERR_NOMEM, "layered fit: cannot allocate the %zu x %zu problem", pr->nwin,
+                np);
+        return -1;
+    }
+    for (i = 0; i < np; i++)
+        gsl_vector_set(p0, i, p0v[i]);
+    memset(&fdf, 0, sizeof fdf);
+    fdf.f = se_layer_f;
+    fdf.df = se_layer_df;
+    fdf.n = pr->nwin;
+    fdf.p = np;
+    fdf.params = (void *)pr;
+    status = gsl_multifit_nlinear_init(p0, &fdf, w);
+    if (status == GSL_SUCCESS)
+        status = gsl_multifit_nlinear_driver(SE_FIT_MAX_ITER, 1e-10, 1e-10, 0.0, NULL, NULL, &info, w);
+    if (status == GSL_SUCCESS || status == GSL_EMAXITER) {
+        gsl_vector *f = gsl_multifit_nlinear_residual(w);
+        gsl_vector *pv = gsl_multifit_nlinear_position(w);
+        gsl_matrix *J = gsl_multifit_nlinear_jac(w);
+        double rss, s2, p[5], C[5][5], A, L, dA[5], dL[5], ga[2][5];
+        gsl_blas_ddot(f, f, &rss);
+        s2 = sigma > 0.0 ? sigma * sigma : rss / (double)(pr->nwin - np);
+        for (i = 0; i < 5; i++)
+            p[i] = i < np ? gsl_vector_get(pv, i) : 0.0;
+        ok = isfinite(rss) && gsl_multifit_nlinear_covar(J, 0.0, cov) == GSL_SUCCESS;
+        for (i = 0; i < np && ok; i++)
+            ok = isfinite(p[i]);
+        ok = ok && fabs(p[2]) < 1.0 && fabs(p[3]) < 1.0 && p[1] > p[0] &&
+             p[0] > pr->begin - (double)pr->mdl->m && p[1] < pr->begin + (double)pr->nwin;
+        if (ok) {
+            memset(C, 0, sizeof C);
+            for (i = 0; i < np; i++)
+                for (j = 0; j < np; j++)
+                    C[i][j] = gsl_matrix_get(cov, i, j) * s2;
+            memset(out, 0, sizeof *out);
+            /* the seen amplitudes' gradients: the two primaries' arrivals */
+            for (i = 0; i < 2; i++) {
+                double va = 0.0, c = 0.0, vt;
+                size_t a, b, lt = i; /* lag parameter of primary i */
+                se_layer_arrival(pr, p, i, &A, &L, dA, dL);
+                for (a = 0; a < 5; a++)
+                    ga[i][a] = a < np ? dA[a] : 0.0;
+                for (a = 0; a < np; a++) {
+                    c += ga[i][a] * C[a][lt];
+                    for (b = 0; b < np; b++)
+                        va += ga[i][a] * C[a][b] * ga[i][b];
+                }
+                vt = C[lt][lt];
+                out->primary[i].lag = L;
+                out->primary[i].amplitude = A;
+                out->primary[i].lag_sd = sqrt(fmax(vt, 0.0));
+                out->primary[i].amplitude_sd = sqrt(fmax(va, 0.0));
+                out->primary[i].corr = (va > 0.0 && vt > 0.0) ? c / sqrt(va * vt) : 0.0;
+                out->r[i] = p[2 + i];
+                out->r_sd[i] = sqrt(fmax(C[2 + i][2 + i], 0.0));
+            }
+            out->gain = pr->free_gain ? p[4] : pr->gain;
+            out->gain_sd = pr->free_gain ? sqrt(fmax(C[4][4], 0.0)) : 0.0;
+            for (j = 0; se_layer_arrival(pr, p, j, &A, &L, dA, dL); j++)
+                ;
+            out->n_arrivals = j;
+            out->rss = rss;
+            out->sigma = sqrt(s2);
+        }
+    }
+    gsl_vector_free(p0);
+    gsl_matrix_free(cov);
+    gsl_multifit_nlinear_free(w);
+    return ok;
+}
+
+se_status se_layerfit(const se_echo_model *mdl, const double *x, size_t n,
+                      const se_layerfit_config *cfg, const se_echo init[2],
+                      se_layerfit_result *out, double *resid, se_error *err)
+{
+    se_layer_problem pr;
+    se_layerfit_result best, cand;
+    se_echo e0, e1;
+    double p0[5], g, r1, r2, hw, centre, wsum;
+    size_t i, np, m, s;
+    int found = 0, rc;
+
+    if (mdl == NULL || x == NULL || cfg == NULL || init == NULL || out == NULL)
+        return se_fail(err, SE_ERR_ARG, "layered fit: missing argument");
+    memset(out, 0, sizeof *out);
+    m = mdl->m;
+    if (cfg->end > n || cfg->begin >= cfg->end || cfg->end - cfg->begin < 16)
+        return se_fail(err, SE_ERR_ARG,
+                       "layered fit: window [%zu, %zu) does not fit a %zu-sample trace",
+                       cfg->begin, cfg->end, n);
+    for (i = 0; i < 2; i++)
+        if (!isfinite(init[i].lag) || !isfinite(init[i].amplitude))
+            return se_fail(err, SE_ERR_ARG, "layered fit: starting echo %zu is not finite", i);
+    for (i = cfg->begin; i < cfg->end; i++)
+        if (!isfinite(x[i]))
+            return se_fail(err, SE_ERR_DATA, "layered fit: sample %zu is not finite", i);
+    pr.mdl = mdl;
+    pr.x = x + cfg->begin;
+    pr.nwin = cfg->end - cfg->begin;
+    pr.begin = (double)cfg->begin;
+    pr.frac = cfg->min_fraction > 0.0 ? cfg->min_fraction : 1e-4;
+    pr.gain = cfg->gain != 0.0 ? cfg->gain : 1.0;
+    pr.free_gain = !cfg->fix_gain;
+    np = pr.free_gain ? 5 : 4;
+    e0 = init[0].lag <= init[1].lag ? init[0] : init[1];
+    e1 = init[0].lag <= init[1].lag ? init[1] : init[0];
+    /* main-lobe half width of the pulse (integer lags), as in se_fitecho */
+    for (s = 1; s + 1 < m && mdl->acf[s] > 0.0 && mdl->acf[s + 1] < mdl->acf[s]; s++)
+        ;
+    hw = (double)s;
+    /* the coefficients from the seen amplitudes with the gain of the start */
+    g = pr.gain;
+    r1 = fmax(-0.95, fmin(0.95, e0.amplitude / g));
+    r2 = fmax(-0.95, fmin(0.95, e1.amplitude / (g * (1.0 - r1 * r1))));
+    wsum = fabs(e0.amplitude) + fabs(e1.amplitude);
+    centre = wsum > 0.0 ? (fabs(e0.amplitude) * e0.lag + fabs(e1.amplitude) * e1.lag) / wsum
+                        : 0.5 * (e0.lag + e1.lag);
+    /* start 0: the given echoes; 1..8: separations hw/8 .. hw about their centre */
+    for (s = 0; s <= 8; s++) {
+        if (s == 0) {
+            p0[0] = e0.lag;
+            p0[1] = e1.lag > e0.lag ? e1.lag : e0.lag + 1.0;
+        } else {
+            double d = hw * (double)s / 8.0;
+            p0[0] = centre - 0.5 * d;
+            p0[1] = centre + 0.5 * d;
+        }
+        p0[2] = r1;
+        p0[3] = r2;
+        p0[4] = g;
+        rc = se_layer_run(&pr, p0, np, cfg->sigma, &cand, err);
+        if (rc < 0)
+            return SE_ERR_NOMEM;
+        if (rc == 1 && (!found || cand.rss < best.rss)) {
+            best = cand;
+            found = 1;
+        }
+        if (s == 0 && found)
+            break; /* the given start converged: the grid is the fallback */
+    }
+    if (!found)
+        return se_fail(err, SE_ERR_NUMERIC,
+                       "layered fit: no fit of two interfaces near lag %.1f converged", e0.lag);
+    *out = best;
+    if (resid != NULL) {
+        double p[5], A, L, dA[5], dL[5];
+        size_t j;
+        p[0] = best.primary[0].lag;
+        p[1] = best.primary[1].lag;
+        p[2] = best.r[0];
+        p[3] = best.r[1];
+        p[4] = best.gain;
+        for (i = 0; i < pr.nwin; i++)
+            resid[i] = pr.x[i];
+        for (j = 0; se_layer_arrival(&pr, p, j, &A, &L, dA, dL); j++)
+            for (i = 0; i < pr.nwin; i++) {
+                double t = pr.begin - L + (double)i;
+                if (t < -2.0 || t > (double)m + 1.0)
+                    continue;
+                resid[i] -= A * se_echo_model_value(mdl, t, NULL);
+            }
+    }
+    return SE_OK;
+}

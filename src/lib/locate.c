@@ -1442,7 +1442,10 @@ static se_status se_locate_stack(double **x, size_t *n, const double *pulse, siz
  * closer than the main lobe (2 hw), or when BIC splits or merges it. A lone peak is only tried for
  * a split when split_thr is finite (not on noise-floored records, where the model's own residue
  * would be fitted); added echoes must exceed split_thr. Groups touching clipped samples keep
- * CLEAN's estimates. *lag_sd, *amp_sd: [size: *npeaks],
+ * CLEAN's estimates. A fit whose residual still holds an echo above split_thr is, for 2 or 3
+ * echoes, refitted as two layered interfaces with their internal multiples (se_layerfit) and
+ * taken when that residual passes; otherwise kept low confidence (intervals widened to the main
+ * lobe). *lag_sd, *amp_sd: [size: *npeaks],
  * NaN where CLEAN's estimate was kept. */
 static se_status se_refit_overlaps(const double *x, size_t n, const se_echo_model *mdl,
                                    const double *ref, const se_locate_result *res,
@@ -1562,6 +1565,57 @@ static se_status se_refit_overlaps(const double *x, size_t n, const se_echo_mode
                 for (k = k0; k <= k1 && k < len; k++)
                     rmax = fmax(rmax, fabs(rr[k]));
                 mismatch = rmax > split_thr;
+            }
+            if (mismatch && (no == 2 || no == 3)) {
+                /* Two interfaces a fraction of the main lobe apart reverberate between each
+                 * other: the train g r1, g (1 - r1^2) r2 (-r1 r2)^n follows from the two
+                 * primaries alone (se_layerfit), so a third fitted echo may be its first
+                 * multiple. Each pair of the fitted echoes is tried as the two interfaces (in
+                 * lag order: first, first and third, second and third); the first whose
+                 * residual passes the same check is taken. Then only its two primaries are
+                 * reported, with their covariance intervals: the internal multiples are not
+                 * events, they are explained inside the fit (and so are not passed on to the
+                 * multiple labelling either). Otherwise the group stays flagged. */
+                static const size_t pairs[3][2] = {{0, 1}, {0, 2}, {1, 2}};
+                size_t pi;
+                for (pi = 0; pi < (no == 2 ? 1u : 3u) && mismatch; pi++) {
+                    se_layerfit_config lc;
+                    se_layerfit_result lr;
+                    se_error lerr;
+                    se_echo two[2];
+                    se_status ls;
+                    size_t k, k0 = 0, k1 = len - m;
+                    double a = floor(lo - (double)b - hw), z = ceil(hi - (double)b + hw);
+                    double lmax = 0.0;
+                    two[0] = fit[pairs[pi][0]];
+                    two[1] = fit[pairs[pi][1]];
+                    se_layerfit_config_init(&lc);
+                    lc.begin = 0;
+                    lc.end = len;
+                    ls = se_layerfit(mdl, w, len, &lc, two, &lr, resid, &lerr);
+                    if (ls == SE_ERR_NOMEM) {
+                        if (err != NULL)
+                            *err = lerr;
+                        free(fit);
+                        st = SE_ERR_NOMEM;
+                        goto fail;
+                    }
+                    if (ls != SE_OK)
+                        continue; /* no layered fit from this pair (lerr not passed on) */
+                    if (a > 0.0)
+                        k0 = (size_t)a;
+                    if (z < (double)k1)
+                        k1 = z > 0.0 ? (size_t)z : 0;
+                    se_xcorr_direct(resid, len, ref, m, rr);
+                    for (k = k0; k <= k1 && k < len; k++)
+                        lmax = fmax(lmax, fabs(rr[k]));
+                    if (lmax <= split_thr) {
+                        fit[0] = lr.primary[0];
+                        fit[1] = lr.primary[1];
+                        no = 2;
+                        mismatch = 0;
+                    }
+                }
             }
             if (nout + no > cap) {
                 free(fit);
