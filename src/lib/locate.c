@@ -958,8 +958,10 @@ static se_status se_label_multiples(se_event *ev, size_t n, const se_locate_stag
         if (sp > 0.0 && fabs(ae - tot) <= 3.0 * sa + 0.3 * s_own + SE_LBL_PREV_F * s_prev) {
             ev[e].multiple = 1;
             ev[e].previous_shot = s_prev > s_own ? kprev : 0;
-        } else if (full != SIZE_MAX && te > ev[full].delay_s + hw_s) {
-            ev[e].multiple = 1; /* past a full reflection nothing real is seen */
+        } else if (full != SIZE_MAX && te > ev[full].delay_s + 0.25 * hw_s) {
+            /* past a full reflection nothing real is seen; closer than a quarter of the main
+             * lobe (fitecho's separation limit) a detection is that reflection's own */
+            ev[e].multiple = 1;
             ev[e].multiple_of[0] = (int)full;
         }
         if (ev[e].multiple && ev[e].previous_shot == 0 && ev[e].multiple_of[0] < 0) {
