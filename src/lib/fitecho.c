@@ -253,6 +253,21 @@ void se_fitecho_config_init(se_fitecho_config *cfg)
     memset(cfg, 0, sizeof *cfg);
 }
 
+/* f_i -= a s(begin + i - lag) over the window [size: nwin], where the pulse is not zero: the
+ * residual of one echo, shared by the independent and the layered models. */
+static void se_fit_sub_echo(gsl_vector *f, const se_echo_model *mdl, double begin, size_t nwin,
+                            double a, double lag)
+{
+    double t0 = begin - lag;
+    size_t i;
+    for (i = 0; i < nwin; i++) {
+        double t = t0 + (double)i;
+        if (t < -2.0 || t > (double)mdl->m + 1.0)
+            continue;
+        gsl_vector_set(f, i, gsl_vector_get(f, i) - a * se_echo_model_value(mdl, t, NULL));
+    }
+}
+
 /* f_i = x_i - sum_k a_k s(i - tau_k) */
 static int se_fit_f(const gsl_vector *p, void *data, gsl_vector *f)
 {
@@ -260,16 +275,9 @@ static int se_fit_f(const gsl_vector *p, void *data, gsl_vector *f)
     size_t k, i, K = p->size / 2;
     for (i = 0; i < pr->nwin; i++)
         gsl_vector_set(f, i, pr->x[i]);
-    for (k = 0; k < K; k++) {
-        double a = gsl_vector_get(p, 2 * k), tau = gsl_vector_get(p, 2 * k + 1);
-        double t0 = pr->begin - tau;
-        for (i = 0; i < pr->nwin; i++) {
-            double t = t0 + (double)i;
-            if (t < -2.0 || t > (double)pr->mdl->m + 1.0)
-                continue;
-            gsl_vector_set(f, i, gsl_vector_get(f, i) - a * se_echo_model_value(pr->mdl, t, NULL));
-        }
-    }
+    for (k = 0; k < K; k++)
+        se_fit_sub_echo(f, pr->mdl, pr->begin, pr->nwin, gsl_vector_get(p, 2 * k),
+                        gsl_vector_get(p, 2 * k + 1));
     return GSL_SUCCESS;
 }
 
@@ -864,15 +872,8 @@ static int se_layer_f(const gsl_vector *pv, void *data, gsl_vector *f)
         p[i] = i < np ? gsl_vector_get(pv, i) : 0.0;
     for (i = 0; i < pr->nwin; i++)
         gsl_vector_set(f, i, pr->x[i]);
-    for (j = 0; se_layer_arrival(pr, p, j, &A, &L, dA, dL); j++) {
-        double t0 = pr->begin - L;
-        for (i = 0; i < pr->nwin; i++) {
-            double t = t0 + (double)i;
-            if (t < -2.0 || t > (double)pr->mdl->m + 1.0)
-                continue;
-            gsl_vector_set(f, i, gsl_vector_get(f, i) - A * se_echo_model_value(pr->mdl, t, NULL));
-        }
-    }
+    for (j = 0; se_layer_arrival(pr, p, j, &A, &L, dA, dL); j++)
+        se_fit_sub_echo(f, pr->mdl, pr->begin, pr->nwin, A, L);
     return GSL_SUCCESS;
 }
 
