@@ -764,6 +764,7 @@ static se_status se_draw(const se_lay *L, se_cv *cv, se_error *err)
     const se_locate_result *r = d->result;
     const double s = L->s, fs = 10.0 * s, ymid = 0.5 * (L->fylab + L->fy1);
     const double ys = 0.5 * (L->fy1 - L->fylab) / L->ymax;
+    const double tscale = r->electrical ? 1e6 : 1e3; /* round trips in us on cables, ms else */
     double step, v, tmax, x, y, lx, right[SE_MAX_LABEL_ROWS];
     char buf[256];
     int dec, k;
@@ -814,19 +815,20 @@ static se_status se_draw(const se_lay *L, se_cv *cv, se_error *err)
     snprintf(buf, sizeof buf, "distance from the sensor (%s)", L->u);
     se_cv_text(cv, 0.5 * (L->fx0 + L->fx1), L->gy1 + 30.0 * s, buf, fs, 0, 1, SE_C_INK, "se-xlabel");
 
-    /* Secondary axis: round-trip time, ms, through the same distance mapping. */
-    tmax = se_delay_of_dist(L, L->dmax_m) * 1e3;
+    /* Secondary axis: round-trip time, ms (us on cables), through the same distance mapping. */
+    tmax = se_delay_of_dist(L, L->dmax_m) * tscale;
     if (isfinite(tmax) && tmax > 0.0) {
         double ts = se_nice_step(tmax, 8);
         int td = se_fmt_decimals(ts);
         double tv;
         for (tv = 0.0; tv <= tmax * (1.0 + 1e-9); tv += ts) {
-            x = se_xpos(L, se_dist_of_delay(L, tv * 1e-3));
+            x = se_xpos(L, se_dist_of_delay(L, tv / tscale));
             se_cv_line(cv, x, L->fy0, x, L->fy0 - 4.0 * s, SE_C_RULE, 1.0 * s, SE_SOLID, s, NULL);
             snprintf(buf, sizeof buf, "%.*f", td, tv);
             se_cv_text(cv, x, L->fy0 - 7.0 * s, buf, 9.0 * s, 0, 1, SE_C_MUTED, "se-ttick");
         }
-        se_cv_text(cv, L->fx1, L->fy0 - 19.0 * s, "round-trip time (ms)", 9.0 * s, 0, 2, SE_C_MUTED, NULL);
+        se_cv_text(cv, L->fx1, L->fy0 - 19.0 * s, r->electrical ? "round-trip time (us)" : "round-trip time (ms)",
+                   9.0 * s, 0, 2, SE_C_MUTED, NULL);
     }
 
     /* Amplitude axis. */
@@ -931,7 +933,9 @@ static se_status se_draw(const se_lay *L, se_cv *cv, se_error *err)
         }
         right[k] = fmax(right[k] + 3.0 * s + w, left + w);
         ly = L->fylab - 6.0 * s - (double)k * 15.0 * s; /* label baseline; row 0 nearest the trace */
-        pos = (ev->delay_s + L->t0) * d->rate_hz;
+        /* on the trace where the echo is; a skin-corrected echo is drawn at its reported
+         * distance, at the height of the lossless matched filter's (later) peak it came from */
+        pos = (ev->delay_s + (ev->skin_corrected ? ev->skin_shift_s : 0.0) + L->t0) * d->rate_hz;
         val = se_sample_at(d->trace, d->n, pos) * se_gain(L, ev->distance_m);
         my = fmin(L->fy1 - 5.0 * s, fmax(L->fylab + 5.0 * s, ymid - ys * val));
         lx = fmin(fmax(x, left + 2.0 * s), left + w - 2.0 * s);

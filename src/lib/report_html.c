@@ -733,9 +733,9 @@ static se_status se_report_section(se_rb *b, const se_report *r, size_t index, s
                      "found).</figcaption>\n</figure>\n");
     }
     se_rb_printf(b, "<table class=\"events\"><thead><tr><th>#</th><th>Distance (%s)</th><th>&plusmn; (%s, %s %%)</th>"
-                    "<th>Delay (ms)</th><th>Class</th><th>Polarity</th><th>Reflection</th><th>&plusmn; (1 &sigma;)</th>"
+                    "<th>Delay (%s)</th><th>Class</th><th>Polarity</th><th>Reflection</th><th>&plusmn; (1 &sigma;)</th>"
                     "<th>SNR (dB)</th><th>Note</th></tr></thead><tbody>\n",
-                 b->u, b->u, se_rb_g(b, conf * 100.0, 3));
+                 b->u, b->u, se_rb_g(b, conf * 100.0, 3), res->electrical ? "&micro;s" : "ms");
     for (i = 0; i < res->n_events; i++) {
         const se_event *ev = &res->events[i];
         size_t mark;
@@ -743,7 +743,7 @@ static se_status se_report_section(se_rb *b, const se_report *r, size_t index, s
                         "<td class=\"n\">%s</td><td>%s</td><td>%s</td><td class=\"n\">%s</td><td class=\"n\">%s</td>"
                         "<td class=\"n\">%s</td><td>",
                      ev->multiple ? " class=\"multiple\"" : "", i + 1, se_rb_num(b, ev->distance_m * b->k, dd),
-                     se_rb_sig(b, ev->distance_uncertainty_m * b->k, dd + 1), se_rb_num(b, ev->delay_s * 1e3, 4),
+                     se_rb_sig(b, ev->distance_uncertainty_m * b->k, dd + 1), se_rb_num(b, ev->delay_s * (res->electrical ? 1e6 : 1e3), 4),
                      se_event_class(res, ev), se_event_polarity(ev), se_rb_num(b, ev->reflection, 3),
                      se_rb_sig(b, ev->reflection_uncertainty, 3), se_rb_num(b, ev->snr_db, 1));
         mark = b->sb.len;
