@@ -6,8 +6,10 @@
  * in blocks against a pre-threshold (0.8 of the threshold the noise of the first 2^15 lags after
  * the direct arrival implies) and only the extent of each cluster of candidates is kept; at the
  * end, for each cluster that passes the final threshold, the window of r around it is recomputed
- * from the file (bit for bit the pass's values), CLEAN (se_detect) runs on it, and the events are
- * classified by the locator's own event stage.
+ * from the file (bit for bit the pass's values), CLEAN (se_detect) runs on it, and the rest is
+ * se_locate's own code (se_locate_finish, internal.h) reading the response back from the file:
+ * the overlap refit, the source-end estimate (cfg->source_reflection NaN), the event stage, the
+ * losses and the dead-zone scan.
  *
  * Non-stationary noise (cfg->noise_tracking, detect.h se_noise_profile): the pass also measures
  * se_locate's noise blocks, keeping only the lags se_noise_block_sigma samples in each
@@ -127,8 +129,10 @@ void se_stream_config_init(se_stream_config *scfg);
  *  info : may be NULL
  * The answer can differ from se_locate's only (1) when more than cfg->max_events peaks pass the
  * threshold (the streaming run keeps the largest, CLEAN on the whole record the first found),
- * (2) with a pulse channel longer than pulse_window (se_pulse_support then sees a prefix), and
- * (3) for repeated shots without a pulse channel (not stacked here). With a pulse channel,
+ * (2) with a pulse channel longer than pulse_window (se_pulse_support then sees a prefix),
+ * (3) for repeated shots without a pulse channel (not stacked here), and (4) by a few 1e-9 s on
+ * the weak echoes of an overlapping reverberation train, which CLEAN refines from the window's
+ * start instead of the record's (and, through them, an estimated r_s by ~1e-8). With a pulse channel,
  * se_locate is the run with cfg->pilot = that channel; a record of repeated shots is stacked as
  * described above (info->shots counts the shots by se_shot_status).
  * Errors: as se_locate, plus SE_ERR_IO / SE_ERR_FORMAT from the file (named), SE_ERR_DATA for a

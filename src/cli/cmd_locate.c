@@ -421,17 +421,7 @@ int se_cmd_locate(int argc, char **argv)
         scfg.stack_memory = mem_mib < 256 ? (size_t)mem_mib << 20 : (size_t)256 << 20;
         cfg.reference_kind = SE_REF_CHANNEL;
         memset(&sinfo, 0, sizeof sinfo);
-        if (isnan(cfg.source_reflection)) {
-            /* the streaming pipeline has no source-end estimate: an explicit request is refused,
-             * the default becomes a continuing line (0) */
-            if (source_end != NULL) {
-                rc = se_cli_fail(SE_EXIT_USAGE, "--source-end estimate needs the whole record: not "
-                                                "available when streaming %s (give the source end)",
-                                 path);
-                goto done;
-            }
-            cfg.source_reflection = 0.0;
-        }
+        /* a NaN source end is estimated by the stream as by the whole-record run */
         if (se_locate_stream(path, &cfg, &scfg, &res, &sinfo, &err) != SE_OK) {
             if (strncmp(err.message, path, strlen(path)) == 0) /* already names the file */
                 rc = se_cli_fail_err(&err, 0);

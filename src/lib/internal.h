@@ -76,4 +76,27 @@ typedef struct se_locate_stage {
 se_status se_locate_events(const se_locate_stage *sg, const struct se_peak *peaks, size_t npeaks,
                            struct se_locate_result *res, se_error *err);
 
+/* A response read by range: read(ctx, pos, count, out, err) fills out [size: count] with samples
+ * [pos, pos + count) of the response, in the locator's units (velocity), pos + count <= n. */
+typedef struct se_sample_reader {
+    se_status (*read)(void *ctx, size_t pos, size_t count, double *out, se_error *err);
+    void *ctx;
+    size_t n; /* samples in the response */
+} se_sample_reader;
+
+/* What follows CLEAN, shared by se_locate and se_locate_stream's single-shot path so their
+ * answers agree: the least-squares refit of overlapping echoes on the response x (cfg->
+ * fit_overlaps, not with skin), the cap of max_events, the source-end estimate when rs_unknown
+ * (cfg->source_reflection then 0 on entry, the estimate on return), se_locate_events with *sg
+ * (sg->cfg is set here to cfg; sg->profile NULL for stationary noise), the fitted and the
+ * skin-corrected events' own uncertainties (skin_sd, plain_lag: NULL without skin), the losses,
+ * and the dead-zone scan (SE_REF_CHANNEL, measured noise). direct: the direct arrival in x's lags;
+ * ref [size: sg->m]: the reference; *peaks [size: *npeaks, lag order, malloc'd] may be replaced
+ * (the caller frees it). res->noise_floored and the clipped runs must already be set. */
+se_status se_locate_finish(se_locate_stage *sg, struct se_locate_config *cfg, int rs_unknown,
+                           const se_sample_reader *x, const double *ref,
+                           const struct se_peak *direct, int skin, const double *skin_sd,
+                           const double *plain_lag, struct se_peak **peaks, size_t *npeaks,
+                           struct se_locate_result *res, se_error *err);
+
 #endif /* SE_INTERNAL_H */

@@ -44,19 +44,20 @@ static int se_window_clipped(const se_locate_result *res, size_t start, size_t m
 static se_status se_locate_stack(double **x, size_t *n, const double *pulse, size_t m,
                                  const se_locate_config *cfg, double rate_hz,
                                  se_locate_result *res, size_t *pre, int *stacked, se_error *err);
-static se_status se_refit_overlaps(const double *x, size_t n, const se_echo_model *mdl,
+static se_status se_refit_overlaps(const se_sample_reader *x, const se_echo_model *mdl,
                                    const double *ref, const se_locate_result *res,
                                    const se_peak *direct,
                                    double thr, const se_noise_profile *prof, double kthr,
                                    double hw, se_peak **peaks, size_t *npeaks, double **lag_sd,
                                    double **amp_sd, se_error *err);
+static se_status se_read_array(void *ctx, size_t pos, size_t count, double *out, se_error *err);
 static void se_keep_largest(se_peak *peaks, size_t *npeaks, double *lag_sd, double *amp_sd,
                             size_t maxp);
 static double se_estimate_source(const se_peak *peaks, size_t npeaks, double lag0, double a0,
                                  double hw, double sigma, const se_noise_profile *prof,
                                  int *found);
 static void se_apply_losses(const se_locate_config *cfg, se_locate_result *res);
-static se_status se_dead_zone_scan(const double *x, size_t n, const se_echo_model *mdl,
+static se_status se_dead_zone_scan(const se_sample_reader *x, const se_echo_model *mdl,
                                    const se_peak *direct, const se_peak *peaks, size_t npeaks,
                                    size_t dead, double thr, double sigma, double hw, double rs,
                                    double rate_hz, double z, const se_distmap *map,
@@ -315,9 +316,7 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
     const se_distmap *map;
     double beta_crb;
     se_locate_config lc;
-    int rs_unknown, rs_found = 0;
-    double *lag_sd = NULL, *amp_sd = NULL;
-    se_echo_model *mdl = NULL;
+    int rs_unknown;
     se_noise_profile prof;
     int varies = 0, skin = 0;
     double *skin_sd = NULL, *plain_lag = NULL;
@@ -590,38 +589,11 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
         res->skin_k_uncertainty = NAN;
     }
 
-    /* Overlapping echoes: least squares on the response, started from CLEAN (fitecho.h). */
-    if (m <= SE_FIT_MAX_PULSE && ((cfg->fit_overlaps && npeaks > 0) ||
-                                  (cfg->reference_kind == SE_REF_CHANNEL && !res->noise_floored))) {
-        mdl = se_echo_model_create(ref, m, err);
-        if (mdl == NULL) {
-            st = err ? err->code : SE_ERR_NOMEM;
-            goto done;
-        }
-    }
-    if (mdl != NULL && cfg->fit_overlaps && npeaks > 0 && !skin) {
-        st = se_refit_overlaps(x, n, mdl, ref, res, &direct, res->noise_floored ? INFINITY : thr,
-                               varies ? &prof : NULL, kthr, se_acf_mainlobe_half_width(acf),
-                               &peaks, &npeaks, &lag_sd, &amp_sd, err);
-        if (st != SE_OK)
-            goto done;
-        /* the refit may split echoes: the cap holds on what is reported */
-        se_keep_largest(peaks, &npeaks, lag_sd, amp_sd, cfg->max_events ? cfg->max_events : 64);
-    }
-
-    /* Source-end coefficient from the data when it was not given. */
-    if (rs_unknown) {
-        lc.source_reflection = se_estimate_source(peaks, npeaks, lag0, a0,
-                                                  se_acf_mainlobe_half_width(acf), sigma,
-                                                  varies ? &prof : NULL, &rs_found);
-        one_plus_rs = 1.0 + lc.source_reflection;
-    }
-
-    /* Events. */
+    /* Overlapping echoes, the source end, the events, the losses and the dead zone. */
     {
         se_locate_stage sg;
+        se_sample_reader rd;
         memset(&sg, 0, sizeof sg);
-        sg.cfg = &lc;
         sg.map = map;
         sg.rate_hz = rate_hz;
         sg.lag0 = lag0;
@@ -636,53 +608,14 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
         sg.beta_crb = beta_crb;
         sg.mainlobe_half_width = se_acf_mainlobe_half_width(acf);
         sg.profile = varies ? &prof : NULL;
-        st = se_locate_events(&sg, peaks, npeaks, res, err);
+        rd.read = se_read_array;
+        rd.ctx = x;
+        rd.n = n;
+        st = se_locate_finish(&sg, &lc, rs_unknown, &rd, ref, &direct, skin, skin_sd, plain_lag,
+                              &peaks, &npeaks, res, err);
         if (st != SE_OK)
             goto done;
-        /* fitted echoes carry the uncertainty of their own fit (covariance) */
-        for (i = 0; lag_sd != NULL && i < res->n_events; i++) {
-            se_event *ev = &res->events[i];
-            double z = gsl_cdf_ugaussian_Pinv(0.5 + 0.5 * cfg->confidence);
-            if (!isfinite(lag_sd[i]))
-                continue;
-            ev->fitted = 1;
-            /* a fit whose timing reaches the main lobe (low SNR, or a group the model does not
-             * explain, se_refit_overlaps) is low confidence */
-            if (lag_sd[i] >= se_acf_mainlobe_half_width(acf))
-                ev->low_confidence = 1;
-            ev->reflection_uncertainty = amp_sd[i] / fabs(a0) / fabs(one_plus_rs);
-            /* the direct arrival's timing noise: the record's sigma (as se_locate_events) */
-            st = se_event_uncertainty(map, z, lag_sd[i], sigma / (fabs(a0) * beta_crb), rate_hz, ev,
-                                      err);
-            if (st != SE_OK)
-                goto done;
-        }
-        /* skin-corrected echoes carry the template fit's timing uncertainty */
-        for (i = 0; skin_sd != NULL && i < res->n_events && i < npeaks; i++) {
-            se_event *ev = &res->events[i];
-            double z = gsl_cdf_ugaussian_Pinv(0.5 + 0.5 * cfg->confidence);
-            if (!isfinite(skin_sd[i]))
-                continue;
-            ev->skin_corrected = 1;
-            ev->skin_shift_s = (plain_lag[i] - peaks[i].lag) / rate_hz;
-            st = se_event_uncertainty(map, z, skin_sd[i], sigma / (fabs(a0) * beta_crb), rate_hz, ev,
-                                      err);
-            if (st != SE_OK)
-                goto done;
-        }
-    }
-    res->source_reflection = lc.source_reflection;
-    res->source_reflection_estimated = rs_unknown && rs_found;
-    se_apply_losses(&lc, res);
-    /* Echoes inside the dead zone: flagged, never hidden (only with the pulse channel as the
-     * reference, whose shape is the direct arrival's, and on records with measured noise). */
-    if (mdl != NULL && cfg->reference_kind == SE_REF_CHANNEL && !res->noise_floored) {
-        double szone = varies ? se_noise_profile_sigma(&prof, (double)start) : sigma;
-        st = se_dead_zone_scan(x, n, mdl, &direct, peaks, npeaks, dead, kthr * szone, szone,
-                               se_acf_mainlobe_half_width(acf), lc.source_reflection, rate_hz,
-                               gsl_cdf_ugaussian_Pinv(0.5 + 0.5 * cfg->confidence), map, res, err);
-        if (st != SE_OK)
-            goto done;
+        one_plus_rs = 1.0 + lc.source_reflection;
     }
     if (cfg->keep_trace) {
         /* hand the correlation over, scaled to reflection units like res->threshold */
@@ -699,9 +632,6 @@ done:
     free(skin_sd);
     free(plain_lag);
     free(peaks);
-    free(lag_sd);
-    free(amp_sd);
-    se_echo_model_destroy(mdl);
     se_acf_destroy(acf);
     se_xcorr_work_destroy(xw);
     se_xcorr_destroy(xc);
@@ -711,6 +641,120 @@ done:
     se_distmap_destroy(own_map);
     if (st != SE_OK)
         se_locate_result_free(res);
+    return st;
+}
+
+/* The response held in memory, as an se_sample_reader (ctx: the array). */
+static se_status se_read_array(void *ctx, size_t pos, size_t count, double *out, se_error *err)
+{
+    (void)err;
+    memcpy(out, (const double *)ctx + pos, count * sizeof *out);
+    return SE_OK;
+}
+
+se_status se_locate_finish(se_locate_stage *sgp, se_locate_config *lcp, int rs_unknown,
+                           const se_sample_reader *xr, const double *ref, const se_peak *direct,
+                           int skin, const double *skin_sd, const double *plain_lag,
+                           se_peak **peaksp, size_t *npeaksp, se_locate_result *res, se_error *err)
+{
+    se_status st = SE_OK;
+    const se_locate_config *const cfg = lcp; /* the fields read here are the caller's own */
+    se_locate_config lc;
+    se_echo_model *mdl = NULL;
+    double *lag_sd = NULL, *amp_sd = NULL, one_plus_rs;
+    se_peak *peaks = *peaksp;
+    size_t npeaks = *npeaksp, i, m = sgp->m, dead = sgp->dead, start = sgp->k0 + sgp->dead;
+    const se_distmap *map = sgp->map;
+    const se_noise_profile *prof = sgp->profile;
+    double lag0 = sgp->lag0, a0 = sgp->a0, sigma = sgp->sigma, kthr = sgp->kthr, thr = sgp->thr;
+    double beta_crb = sgp->beta_crb, rate_hz = sgp->rate_hz, hw = sgp->mainlobe_half_width;
+    int rs_found = 0, varies = prof != NULL;
+
+    lc = *lcp;
+    one_plus_rs = 1.0 + lc.source_reflection;
+    /* Overlapping echoes: least squares on the response, started from CLEAN (fitecho.h). */
+    if (m <= SE_FIT_MAX_PULSE && ((cfg->fit_overlaps && npeaks > 0) ||
+                                  (cfg->reference_kind == SE_REF_CHANNEL && !res->noise_floored))) {
+        mdl = se_echo_model_create(ref, m, err);
+        if (mdl == NULL) {
+            st = err ? err->code : SE_ERR_NOMEM;
+            goto out;
+        }
+    }
+    if (mdl != NULL && cfg->fit_overlaps && npeaks > 0 && !skin) {
+        st = se_refit_overlaps(xr, mdl, ref, res, direct, res->noise_floored ? INFINITY : thr,
+                               prof, kthr, hw, &peaks, &npeaks, &lag_sd, &amp_sd, err);
+        if (st != SE_OK)
+            goto out;
+        /* the refit may split echoes: the cap holds on what is reported */
+        se_keep_largest(peaks, &npeaks, lag_sd, amp_sd, cfg->max_events ? cfg->max_events : 64);
+    }
+
+    /* Source-end coefficient from the data when it was not given. */
+    if (rs_unknown) {
+        lc.source_reflection = se_estimate_source(peaks, npeaks, lag0, a0, hw, sigma, prof,
+                                                  &rs_found);
+        one_plus_rs = 1.0 + lc.source_reflection;
+    }
+
+    /* Events. */
+    {
+        se_locate_stage sg = *sgp;
+        sg.cfg = &lc;
+        st = se_locate_events(&sg, peaks, npeaks, res, err);
+        if (st != SE_OK)
+            goto out;
+        /* fitted echoes carry the uncertainty of their own fit (covariance) */
+        for (i = 0; lag_sd != NULL && i < res->n_events; i++) {
+            se_event *ev = &res->events[i];
+            double z = gsl_cdf_ugaussian_Pinv(0.5 + 0.5 * cfg->confidence);
+            if (!isfinite(lag_sd[i]))
+                continue;
+            ev->fitted = 1;
+            /* a fit whose timing reaches the main lobe (low SNR, or a group the model does not
+             * explain, se_refit_overlaps) is low confidence */
+            if (lag_sd[i] >= hw)
+                ev->low_confidence = 1;
+            ev->reflection_uncertainty = amp_sd[i] / fabs(a0) / fabs(one_plus_rs);
+            /* the direct arrival's timing noise: the record's sigma (as se_locate_events) */
+            st = se_event_uncertainty(map, z, lag_sd[i], sigma / (fabs(a0) * beta_crb), rate_hz, ev,
+                                      err);
+            if (st != SE_OK)
+                goto out;
+        }
+        /* skin-corrected echoes carry the template fit's timing uncertainty */
+        for (i = 0; skin_sd != NULL && i < res->n_events && i < npeaks; i++) {
+            se_event *ev = &res->events[i];
+            double z = gsl_cdf_ugaussian_Pinv(0.5 + 0.5 * cfg->confidence);
+            if (!isfinite(skin_sd[i]))
+                continue;
+            ev->skin_corrected = 1;
+            ev->skin_shift_s = (plain_lag[i] - peaks[i].lag) / rate_hz;
+            st = se_event_uncertainty(map, z, skin_sd[i], sigma / (fabs(a0) * beta_crb), rate_hz, ev,
+                                      err);
+            if (st != SE_OK)
+                goto out;
+        }
+    }
+    res->source_reflection = lc.source_reflection;
+    res->source_reflection_estimated = rs_unknown && rs_found;
+    se_apply_losses(&lc, res);
+    /* Echoes inside the dead zone: flagged, never hidden (only with the pulse channel as the
+     * reference, whose shape is the direct arrival's, and on records with measured noise). */
+    if (mdl != NULL && cfg->reference_kind == SE_REF_CHANNEL && !res->noise_floored) {
+        double szone = varies ? se_noise_profile_sigma(prof, (double)start) : sigma;
+        st = se_dead_zone_scan(xr, mdl, direct, peaks, npeaks, dead, kthr * szone, szone, hw,
+                               lc.source_reflection, rate_hz, gsl_cdf_ugaussian_Pinv(0.5 + 0.5 * cfg->confidence), map, res, err);
+        if (st != SE_OK)
+            goto out;
+    }
+out:
+    *lcp = lc;
+    *peaksp = peaks;
+    *npeaksp = npeaks;
+    free(lag_sd);
+    free(amp_sd);
+    se_echo_model_destroy(mdl);
     return st;
 }
 
@@ -1449,14 +1493,14 @@ static se_status se_locate_stack(double **x, size_t *n, const double *pulse, siz
  * taken when that residual passes; otherwise kept low confidence (intervals widened to the main
  * lobe). *lag_sd, *amp_sd: [size: *npeaks],
  * NaN where CLEAN's estimate was kept. */
-static se_status se_refit_overlaps(const double *x, size_t n, const se_echo_model *mdl,
+static se_status se_refit_overlaps(const se_sample_reader *x, const se_echo_model *mdl,
                                    const double *ref, const se_locate_result *res,
                                    const se_peak *direct,
                                    double thr_all, const se_noise_profile *prof, double kthr,
                                    double hw, se_peak **peaks, size_t *npeaks, double **lag_sd,
                                    double **amp_sd, se_error *err)
 {
-    size_t m = se_echo_model_length(mdl), np = *npeaks, g0, g1, i, j, nout = 0, cap;
+    size_t m = se_echo_model_length(mdl), np = *npeaks, g0, g1, i, j, nout = 0, cap, n = x->n;
     se_peak *in = *peaks, *out = NULL;
     double *lsd = NULL, *asd = NULL, *w = NULL, *resid = NULL, *rr = NULL;
     se_echo init[16];
@@ -1502,8 +1546,8 @@ static se_status se_refit_overlaps(const double *x, size_t n, const se_echo_mode
         if (len < 16 || len > 4 * m + 8 || se_window_clipped(res, b, len))
             goto keep_clean; /* a clipped echo does not follow the model */
         /* the window with every other echo (and the direct arrival) taken out */
-        for (i = 0; i < len; i++)
-            w[i] = x[b + i];
+        if ((st = x->read(x->ctx, b, len, w, err)) != SE_OK)
+            goto fail;
         for (j = 0; j <= np; j++) {
             const se_peak *o = j < np ? &in[j] : direct;
             if (j >= g0 && j < g1)
@@ -1955,13 +1999,13 @@ static se_status se_event_uncertainty(const se_distmap *map, double z, double sl
  * alone with echoes added by BIC (fitecho.h, at most 3 more, each above the threshold). Fitted
  * echoes more than a quarter of the main-lobe half width (fitecho's separation limit) after the
  * direct arrival and before the end of the dead zone go to res->dead_zone_events, low confidence. */
-static se_status se_dead_zone_scan(const double *x, size_t n, const se_echo_model *mdl,
+static se_status se_dead_zone_scan(const se_sample_reader *x, const se_echo_model *mdl,
                                    const se_peak *direct, const se_peak *peaks, size_t npeaks,
                                    size_t dead, double thr, double sigma, double hw, double rs,
                                    double rate_hz, double z, const se_distmap *map,
                                    se_locate_result *res, se_error *err)
 {
-    size_t m = se_echo_model_length(mdl), b, e, len, i, j, no = 0, nd = 0;
+    size_t m = se_echo_model_length(mdl), b, e, len, i, j, no = 0, nd = 0, n = x->n;
     double bb = floor(direct->lag - 0.5 * (double)m), *w;
     se_echo init, *fit = NULL;
     se_fitecho_config fc;
@@ -1978,8 +2022,10 @@ static se_status se_dead_zone_scan(const double *x, size_t n, const se_echo_mode
     w = se_calloc(len, sizeof *w, "dead-zone window", err);
     if (w == NULL)
         return SE_ERR_NOMEM;
-    for (i = 0; i < len; i++)
-        w[i] = x[b + i];
+    if ((st = x->read(x->ctx, b, len, w, err)) != SE_OK) {
+        free(w);
+        return st;
+    }
     for (j = 0; j < npeaks; j++)
         if (peaks[j].lag - 2.0 < (double)e)
             for (i = 0; i < len; i++)

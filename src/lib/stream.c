@@ -141,6 +141,7 @@ static int se_block_flags(const double *u, size_t len, double cmx, double cmn);
 static int se_any_at_least(const double *p, size_t len, double t);
 static void se_widen(double *o, const float *f, size_t n);
 static se_status se_read_range(se_src *src, size_t pos, size_t count, double *x, se_error *err);
+static se_status se_read_src(void *ctx, size_t pos, size_t count, double *out, se_error *err);
 static se_status se_window_data(const se_sl *s, se_src *src, const se_xcorr *xc, se_xcorr_work *w,
                                 size_t a, size_t e, double **data, se_error *err);
 static se_status se_sl_know(se_sl *s, size_t c0, size_t c1, const double *chunk, se_error *err);
@@ -854,6 +855,12 @@ static se_status se_read_range(se_src *src, size_t pos, size_t count, double *x,
     return SE_OK;
 }
 
+/* se_read_range as an se_sample_reader (ctx: the se_src), for se_locate_finish. */
+static se_status se_read_src(void *ctx, size_t pos, size_t count, double *out, se_error *err)
+{
+    return se_read_range((se_src *)ctx, pos, count, out, err);
+}
+
 /* r[a, e) recomputed from the file, bit for bit what the pass computed: the chunk starts at a
  * multiple of the step and ends at one (or at the record's end), as every chunk of the pass does
  * (se_xcorr_run_part). *data receives a malloc'd array of e - a values. */
@@ -1290,7 +1297,7 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
     se_src src;
     se_prep prep;
     se_wjob wj[2];
-    int varies = 0, have = 0, wcur = 0;
+    int varies = 0, have = 0, wcur = 0, rs_unknown;
 
     memset(&src, 0, sizeof src);
     memset(&prep, 0, sizeof prep);
@@ -1337,8 +1344,10 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
                        cfg.false_alarms);
     if (!(cfg.confidence > 0.0 && cfg.confidence < 1.0))
         return se_fail(err, SE_ERR_RANGE, "locate: confidence %g is not in (0, 1)", cfg.confidence);
-    if (!(cfg.source_reflection >= -1.0 && cfg.source_reflection <= 1.0) ||
-        fabs(1.0 + cfg.source_reflection) < 1e-6)
+    /* NaN: estimated from the echoes (se_locate_finish), as se_locate does */
+    rs_unknown = isnan(cfg.source_reflection);
+    if (!rs_unknown && (!(cfg.source_reflection >= -1.0 && cfg.source_reflection <= 1.0) ||
+                        fabs(1.0 + cfg.source_reflection) < 1e-6))
         return se_fail(err, SE_ERR_RANGE,
                        "locate: source-end coefficient %g leaves nothing to measure at the sensor",
                        cfg.source_reflection);
@@ -1728,10 +1737,15 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
         nall = maxp;
         qsort(all, nall, sizeof *all, se_peak_by_lag);
     }
+    /* As se_locate after CLEAN: the overlap refit on the response read back from the file, the
+     * source end, the events, the losses and the dead zone (se_locate_finish) */
+    if (rs_unknown)
+        cfg.source_reflection = 0.0;
     {
         se_locate_stage sg;
+        se_sample_reader rd;
+        se_peak direct;
         memset(&sg, 0, sizeof sg);
-        sg.cfg = &cfg;
         sg.map = map;
         sg.rate_hz = info->rate;
         sg.lag0 = lag0;
@@ -1746,7 +1760,14 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
         sg.beta_crb = beta_crb;
         sg.mainlobe_half_width = se_acf_mainlobe_half_width(acf);
         sg.profile = varies ? &prof : NULL;
-        st = se_locate_events(&sg, all, nall, res, err);
+        direct.lag = lag0;
+        direct.amplitude = a0;
+        direct.index = s.k0;
+        rd.read = se_read_src;
+        rd.ctx = &src;
+        rd.n = n;
+        st = se_locate_finish(&sg, &cfg, rs_unknown, &rd, ref, &direct, 0, NULL, NULL, &all, &nall,
+                              res, err);
     }
 
 done:
