@@ -59,6 +59,18 @@ int se_cli_value(se_cli *c, const char *name, const char **value);
         continue;                                                                                 \
     }
 
+/* --false-alarms N: the expected false detections per record, a number in (0, 1000], as every
+ * command that detects takes it; a bad value is refused with its one-line error. */
+#define SE_TAKE_FALSE_ALARMS(var)                                                                 \
+    if ((got = se_cli_value(&c, "--false-alarms", &v)) != 0) {                                    \
+        if (got < 0 || se_cli_false_alarms(v, &(var)) != 0)                                       \
+            return SE_EXIT_USAGE;                                                                 \
+        continue;                                                                                 \
+    }
+
+/* Parse a --false-alarms value in (0, 1000] (prints the error and returns -1 when it is not). */
+int se_cli_false_alarms(const char *text, double *out);
+
 /* If argv[i] is exactly --name (a flag), advance and return 1. */
 int se_cli_flag(se_cli *c, const char *name);
 /* Parse a positive integer option value (1-based channel numbers etc.). */

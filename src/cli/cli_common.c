@@ -83,6 +83,18 @@ int se_cli_flag(se_cli *c, const char *name)
     return 1;
 }
 
+int se_cli_false_alarms(const char *text, double *out)
+{
+    char *end;
+    double fa = strtod(text, &end);
+    if (end == text || *end != '\0' || !(fa > 0.0 && fa <= 1000.0)) {
+        se_cli_fail(SE_EXIT_USAGE, "--false-alarms: '%s' is not a number in (0, 1000]", text);
+        return -1;
+    }
+    *out = fa;
+    return 0;
+}
+
 int se_cli_uint(const char *opt, const char *text, unsigned long min, unsigned long max,
                 unsigned long *out)
 {

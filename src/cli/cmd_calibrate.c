@@ -117,16 +117,7 @@ int se_cmd_calibrate(int argc, char **argv)
         SE_TAKE("--segment", segment_name)
         SE_TAKE_UINT("--channel", 1, 65535, channel)
         SE_TAKE_UINT("--pulse-channel", 1, 65535, pulse_channel)
-        if ((got = se_cli_value(&c, "--false-alarms", &v)) != 0) {
-            char *end;
-            if (got < 0)
-                return SE_EXIT_USAGE;
-            fa = strtod(v, &end);
-            if (end == v || *end != '\0' || !(fa > 0.0 && fa <= 1000.0))
-                return se_cli_fail(SE_EXIT_USAGE,
-                                   "--false-alarms: '%s' is not a number in (0, 1000]", v);
-            continue;
-        }
+        SE_TAKE_FALSE_ALARMS(fa)
         if (se_cli_flag(&c, "--quiet")) {
             c.quiet = 1;
             continue;

@@ -222,16 +222,7 @@ int se_cmd_locate(int argc, char **argv)
             continue;
         }
         SE_TAKE_UINT("--max-events", 1, 10000, max_events)
-        if ((got = se_cli_value(&c, "--false-alarms", &v)) != 0) {
-            char *end;
-            if (got < 0)
-                return SE_EXIT_USAGE;
-            fa = strtod(v, &end);
-            if (end == v || *end != '\0' || !(fa > 0.0 && fa <= 1000.0))
-                return se_cli_fail(SE_EXIT_USAGE,
-                                   "--false-alarms: '%s' is not a number in (0, 1000]", v);
-            continue;
-        }
+        SE_TAKE_FALSE_ALARMS(fa)
         if ((got = se_cli_value(&c, "--noise-tracking", &v)) != 0) {
             if (got < 0)
                 return SE_EXIT_USAGE;

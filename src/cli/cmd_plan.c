@@ -101,16 +101,7 @@ int se_cmd_plan(int argc, char **argv)
                                    v);
             continue;
         }
-        if ((got = se_cli_value(&c, "--false-alarms", &v)) != 0) {
-            char *end;
-            if (got < 0)
-                return SE_EXIT_USAGE;
-            fa = strtod(v, &end);
-            if (end == v || *end != '\0' || !(fa > 0.0 && fa <= 1000.0))
-                return se_cli_fail(SE_EXIT_USAGE,
-                                   "--false-alarms: '%s' is not a number in (0, 1000]", v);
-            continue;
-        }
+        SE_TAKE_FALSE_ALARMS(fa)
         if (se_cli_flag(&c, "--quiet")) {
             c.quiet = 1;
             continue;
