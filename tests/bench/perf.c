@@ -269,6 +269,23 @@ typedef struct pb_part {
 } pb_part;
 
 /* lags [from, to) in chunks of lc (multiples of the step), as the stream does */
+/* Time fn on the first half of a record in this thread and, with two, on the second in another:
+ * the seconds from start to both done. */
+static double pb_halves(void *(*fn)(void *), void *first, void *second, int two)
+{
+    pthread_t tid;
+    double t0 = pb_now();
+    if (two && pthread_create(&tid, NULL, fn, second) == 0) {
+        fn(first);
+        pthread_join(tid, NULL);
+    } else {
+        fn(first);
+        if (two)
+            fn(second);
+    }
+    return pb_now() - t0;
+}
+
 static void *pb_part_run(void *arg)
 {
     pb_part *p = arg;
@@ -284,10 +301,9 @@ static void *pb_part_run(void *arg)
 /* Child: the bare overlap-save correlation of an in-memory record (generation not timed). */
 static int pb_child_bare(size_t n, size_t m, unsigned threads)
 {
-    double *x = malloc(n * sizeof *x), *r = malloc(n * sizeof *r), *s = malloc(m * sizeof *s), t0;
+    double *x = malloc(n * sizeof *x), *r = malloc(n * sizeof *r), *s = malloc(m * sizeof *s);
     se_xcorr *xc;
     pb_part part[2];
-    pthread_t tid;
     size_t i, step, lc, half;
     se_error err;
     if (x == NULL || r == NULL || s == NULL)
@@ -315,15 +331,7 @@ static int pb_child_bare(size_t n, size_t m, unsigned threads)
     part[0].to = half;
     part[1].from = half;
     part[1].to = n;
-    t0 = pb_now();
-    if (threads > 1 && half < n) {
-        pthread_create(&tid, NULL, pb_part_run, &part[1]);
-        pb_part_run(&part[0]);
-        pthread_join(tid, NULL);
-    } else {
-        pb_part_run(&part[0]);
-    }
-    printf("%.6f\n", pb_now() - t0);
+    printf("%.6f\n", pb_halves(pb_part_run, &part[0], &part[1], threads > 1 && half < n));
     se_xcorr_work_destroy(part[0].w);
     se_xcorr_work_destroy(part[1].w);
     se_xcorr_destroy(xc);
@@ -372,13 +380,12 @@ static void *pb_fpart_run(void *arg)
 static int pb_child_bare_float(size_t n, size_t m, unsigned threads)
 {
     float *x = malloc(n * sizeof *x), *r = malloc(n * sizeof *r);
-    double *xd = malloc(n * sizeof *xd), *rd = malloc(n * sizeof *rd), *s = malloc(m * sizeof *s), t0;
+    double *xd = malloc(n * sizeof *xd), *rd = malloc(n * sizeof *rd), *s = malloc(m * sizeof *s);
     double e = 0.0, emax = 0.0, rmax = 0.0;
     size_t i, block = 1024, nb, step, half;
     fftwf_complex *h;
     float *tin;
     pb_fpart part[2];
-    pthread_t tid;
     se_xcorr *xc;
     se_xcorr_work *w;
     se_error err;
@@ -434,15 +441,7 @@ static int pb_child_bare_float(size_t n, size_t m, unsigned threads)
     part[0].to = half;
     part[1].from = half;
     part[1].to = n;
-    t0 = pb_now();
-    if (threads > 1 && half < n) {
-        pthread_create(&tid, NULL, pb_fpart_run, &part[1]);
-        pb_fpart_run(&part[0]);
-        pthread_join(tid, NULL);
-    } else {
-        pb_fpart_run(&part[0]);
-    }
-    printf("%.6f", pb_now() - t0);
+    printf("%.6f", pb_halves(pb_fpart_run, &part[0], &part[1], threads > 1 && half < n));
     /* accuracy against the double engine (not timed) */
     xc = se_xcorr_create(s, m, 0, &err);
     w = xc != NULL ? se_xcorr_work_create(xc, &err) : NULL;
