@@ -1482,6 +1482,32 @@ static se_status se_locate_stack(double **x, size_t *n, const double *pulse, siz
     return SE_OK;
 }
 
+/* The largest |matched filter| of a residual res [size: len > m] over the lags from..to (rounded
+ * out, clipped to [0, len - m]): r[k] = sum_j res[k + j] ref[j] / E_s as se_xcorr_direct gives it,
+ * computed for those lags only. */
+static double se_residual_peak(const double *res, size_t len, const double *ref, size_t m,
+                               double from, double to)
+{
+    size_t k0 = 0, k1 = len - m, k, j;
+    double a = floor(from), z = ceil(to), e = 0.0, best = 0.0;
+    if (a > 0.0)
+        k0 = (size_t)a;
+    if (z < (double)k1)
+        k1 = z > 0.0 ? (size_t)z : 0;
+    for (j = 0; j < m; j++)
+        e += ref[j] * ref[j];
+    if (!(e > 0.0))
+        return 0.0;
+    for (k = k0; k <= k1 && k < len; k++) {
+        double acc = 0.0;
+        size_t jmax = len - k < m ? len - k : m;
+        for (j = 0; j < jmax; j++)
+            acc += res[k + j] * ref[j];
+        best = fmax(best, fabs(acc / e));
+    }
+    return best;
+}
+
 /* Least squares of groups of overlapping echoes (fitecho.h) on the response x [size: n]. A group
  * is a run of peaks less than one pulse length apart; the other echoes and the direct arrival are
  * subtracted from its window first. The fit replaces CLEAN's estimates when the group holds echoes
@@ -1502,7 +1528,7 @@ static se_status se_refit_overlaps(const se_sample_reader *x, const se_echo_mode
 {
     size_t m = se_echo_model_length(mdl), np = *npeaks, g0, g1, i, j, nout = 0, cap, n = x->n;
     se_peak *in = *peaks, *out = NULL;
-    double *lsd = NULL, *asd = NULL, *w = NULL, *resid = NULL, *rr = NULL;
+    double *lsd = NULL, *asd = NULL, *w = NULL, *resid = NULL;
     se_echo init[16];
     se_status st = SE_OK;
 
@@ -1512,8 +1538,7 @@ static se_status se_refit_overlaps(const se_sample_reader *x, const se_echo_mode
     asd = se_calloc(cap, sizeof *asd, "fitted peaks", err);
     w = se_calloc(4 * m + 8, sizeof *w, "fit window", err);
     resid = se_calloc(4 * m + 8, sizeof *resid, "fit residual", err);
-    rr = se_calloc(4 * m + 8, sizeof *rr, "fit residual", err);
-    if (out == NULL || lsd == NULL || asd == NULL || w == NULL || resid == NULL || rr == NULL) {
+    if (out == NULL || lsd == NULL || asd == NULL || w == NULL || resid == NULL) {
         st = SE_ERR_NOMEM;
         goto fail;
     }
@@ -1595,21 +1620,14 @@ static se_status se_refit_overlaps(const se_sample_reader *x, const se_echo_mode
             double rmax = 0.0;
             int mismatch = 0;
             if (isfinite(split_thr) && len > m) {
-                size_t k, k0 = 0, k1 = len - m;
-                double a = floor(lo - (double)b - hw), z = ceil(hi - (double)b + hw);
-                if (a > 0.0)
-                    k0 = (size_t)a;
-                if (z < (double)k1)
-                    k1 = z > 0.0 ? (size_t)z : 0;
                 for (i = 0; i < len; i++) {
                     resid[i] = w[i];
                     for (q = 0; q < no; q++)
                         resid[i] -= fit[q].amplitude *
                                     se_echo_model_value(mdl, (double)i - fit[q].lag, NULL);
                 }
-                se_xcorr_direct(resid, len, ref, m, rr);
-                for (k = k0; k <= k1 && k < len; k++)
-                    rmax = fmax(rmax, fabs(rr[k]));
+                rmax = se_residual_peak(resid, len, ref, m, lo - (double)b - hw,
+                                        hi - (double)b + hw);
                 mismatch = rmax > split_thr;
             }
             if (mismatch && (no == 2 || no == 3)) {
@@ -1630,9 +1648,7 @@ static se_status se_refit_overlaps(const se_sample_reader *x, const se_echo_mode
                     se_error lerr;
                     se_echo two[2];
                     se_status ls;
-                    size_t k, k0 = 0, k1 = len - m;
-                    double a = floor(lo - (double)b - hw), z = ceil(hi - (double)b + hw);
-                    double lmax = 0.0;
+                    double lmax;
                     two[0] = fit[pairs[pi][0]];
                     two[1] = fit[pairs[pi][1]];
                     se_layerfit_config_init(&lc);
@@ -1648,13 +1664,8 @@ static se_status se_refit_overlaps(const se_sample_reader *x, const se_echo_mode
                     }
                     if (ls != SE_OK)
                         continue; /* no layered fit from this pair (lerr not passed on) */
-                    if (a > 0.0)
-                        k0 = (size_t)a;
-                    if (z < (double)k1)
-                        k1 = z > 0.0 ? (size_t)z : 0;
-                    se_xcorr_direct(resid, len, ref, m, rr);
-                    for (k = k0; k <= k1 && k < len; k++)
-                        lmax = fmax(lmax, fabs(rr[k]));
+                    lmax = se_residual_peak(resid, len, ref, m, lo - (double)b - hw,
+                                            hi - (double)b + hw);
                     if (lmax <= split_thr) {
                         fit[0] = lr.primary[0];
                         fit[1] = lr.primary[1];
@@ -1690,7 +1701,6 @@ static se_status se_refit_overlaps(const se_sample_reader *x, const se_echo_mode
     }
     free(w);
     free(resid);
-    free(rr);
     free(*peaks);
     *peaks = out;
     *npeaks = nout;
@@ -1703,7 +1713,6 @@ fail:
     free(asd);
     free(w);
     free(resid);
-    free(rr);
     return st;
 }
 
