@@ -1417,10 +1417,6 @@ static se_status se_locate_stack(double **x, size_t *n, const double *pulse, siz
             res->shots_used = 1;
             *stacked = 1;
         }
-        (void)x;
-        (void)n;
-        (void)pulse;
-        (void)m;
         return SE_OK;
     }
 
