@@ -48,6 +48,8 @@ def main():
             check(abs(e["distance_m"] - 132.0) <= e["distance_uncertainty_m"],
                   "end at %.4f m within its interval %.4f of 132 m" % (e["distance_m"], e["distance_uncertainty_m"]))
             check(e["skin_corrected"] is True and e["skin_shift_s"] > 0.0, "skin-corrected, moved earlier")
+        # 4.895e-7: the length-weighted mean of the three segments' K, each dB figure converted with
+        # the neper-decibel relation 1 Np = 20 log10(e) dB (ISO 80000-3, NIST SP 811) [calc]
         check(res["skin_loss_s05_per_m"] is not None and abs(res["skin_loss_s05_per_m"] - 4.895e-7) < 5e-10,
               "K from the line file (%s)" % res["skin_loss_s05_per_m"])
         check(res["skin_loss_estimated"] is False and res["skin_explained"] > 0, "K given, pieces explained")
