@@ -21,6 +21,8 @@
 #include "strandecho/recording.h"
 #include "strandecho/simulate.h"
 #include "strandecho/stream.h"
+#include <sndfile.h>
+
 #include "testutil.h"
 
 #define TS_FS 1.0e6
@@ -55,6 +57,7 @@ static void test_mono_windows(void);
 static void test_formats(void);
 static void test_noise_taps(void);
 static void test_overlap_refit(void);
+static void test_non_finite(void);
 
 /* A 40-sample burst: 8 cycles of 0.1 cycles/sample under a Gaussian window. */
 static double ts_burst(double u)
@@ -767,6 +770,94 @@ static void test_overlap_refit(void)
     remove(path);
 }
 
+/* A non-finite sample stops the stream with the file and the sample named: the record's first
+ * one, whichever chunk or thread meets it, also in the overlap a chunk reads past its own lags,
+ * and in the pass without a time base. Written with libsndfile directly (se_recording_write
+ * refuses such samples). */
+static int ts_write_bad(const char *path, size_t n, const size_t *at, const double *val, size_t nbad)
+{
+    float *f = calloc(2 * n, sizeof *f);
+    uint64_t st = 23;
+    SF_INFO si;
+    SNDFILE *snd;
+    size_t i;
+    int ok;
+    if (f == NULL)
+        return 0;
+    for (i = 0; i < n; i++) {
+        double p = ts_burst((double)i - 1000.0);
+        f[2 * i] = (float)(p + 0.5 * ts_burst((double)i - 40000.0) + 1e-3 * ts_gauss(&st));
+        f[2 * i + 1] = (float)(p + 1e-4 * ts_gauss(&st));
+    }
+    for (i = 0; i < nbad; i++)
+        f[2 * at[i]] = (float)val[i];
+    memset(&si, 0, sizeof si);
+    si.samplerate = (int)TS_FS;
+    si.channels = 2;
+    si.format = SF_FORMAT_WAV | SF_FORMAT_FLOAT;
+    snd = sf_open(path, SFM_WRITE, &si);
+    ok = snd != NULL && sf_writef_float(snd, f, (sf_count_t)n) == (sf_count_t)n;
+    if (snd != NULL)
+        sf_close(snd);
+    free(f);
+    return ok;
+}
+
+static void test_non_finite(void)
+{
+    /* 70001: chunk 1 of 2^16 lags, and inside chunk 0's overlap (its last m - 1 samples) */
+    static const struct {
+        size_t at[2];
+        double val[2];
+        size_t nbad;
+        const char *want;
+    } cases[] = {
+        {{70001, 0}, {NAN, 0.0}, 1, "sample 70001 (channel 1) is NaN"},
+        {{65540, 0}, {INFINITY, 0.0}, 1, "sample 65540 (channel 1) is infinite"},
+        {{130000, 150}, {NAN, -INFINITY}, 2, "sample 150 (channel 1) is infinite"},
+    };
+    char path[4096];
+    size_t c, t, b;
+    se_test_binary_path(path, sizeof path, "stream_nan.wav");
+    for (c = 0; c < sizeof cases / sizeof cases[0]; c++) {
+        if (!CHECK(ts_write_bad(path, 140000, cases[c].at, cases[c].val, cases[c].nbad)))
+            return;
+        for (t = 1; t <= 2; t++)
+            for (b = 0; b < 3; b++) { /* default chunks, small ones, and no time base */
+                se_locate_result str;
+                se_stream_config sc;
+                se_locate_config cfg;
+                se_error err;
+                se_stream_config_init(&sc);
+                se_locate_config_init(&cfg);
+                cfg.speed_m_s = TS_V;
+                sc.threads = (unsigned)t;
+                sc.pulse_channel = 1;
+                if (b == 1)
+                    sc.block = 5000;
+                se_error_clear(&err);
+                if (b == 2) { /* the pulse as a separate reference, no time base: pass 0 */
+                    double ref[43];
+                    size_t i;
+                    for (i = 0; i < 43; i++)
+                        ref[i] = ts_burst((double)i - 1.0);
+                    sc.pulse_channel = SE_STREAM_NO_CHANNEL;
+                    cfg.reference = ref;
+                    cfg.reference_length = 43;
+                    cfg.reference_kind = SE_REF_FILE;
+                    cfg.reference_offset = SIZE_MAX;
+                    CHECK(se_locate_stream(path, &cfg, &sc, &str, NULL, &err) == SE_ERR_DATA);
+                } else {
+                    CHECK(se_locate_stream(path, &cfg, &sc, &str, NULL, &err) == SE_ERR_DATA);
+                }
+                if (!CHECK(strstr(err.message, cases[c].want) != NULL &&
+                           strstr(err.message, "stream_nan.wav") != NULL))
+                    printf("  case %zu threads %zu mode %zu: %s\n", c, t, b, err.message);
+            }
+    }
+    remove(path);
+}
+
 int main(void)
 {
     test_blocks_and_threads();
@@ -774,6 +865,7 @@ int main(void)
     test_noise_falls();
     test_clipping();
     test_refusals();
+    test_non_finite();
     test_mono_windows();
     test_formats();
     test_noise_taps();

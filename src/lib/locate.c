@@ -44,8 +44,8 @@ static int se_window_clipped(const se_locate_result *res, size_t start, size_t m
 static se_status se_locate_stack(double **x, size_t *n, const double *pulse, size_t m,
                                  const se_locate_config *cfg, double rate_hz,
                                  se_locate_result *res, size_t *pre, int *stacked, se_error *err);
-static se_status se_refit_overlaps(const se_sample_reader *x, const se_echo_model *mdl,
-                                   const double *ref, const se_locate_result *res,
+static se_status se_refit_overlaps(const se_sample_reader *x, se_echo_model **mdlp,
+                                   const double *ref, size_t m, const se_locate_result *res,
                                    const se_peak *direct,
                                    double thr, const se_noise_profile *prof, double kthr,
                                    double hw, se_peak **peaks, size_t *npeaks, double **lag_sd,
@@ -672,17 +672,11 @@ se_status se_locate_finish(se_locate_stage *sgp, se_locate_config *lcp, int rs_u
 
     lc = *lcp;
     one_plus_rs = 1.0 + lc.source_reflection;
-    /* Overlapping echoes: least squares on the response, started from CLEAN (fitecho.h). */
-    if (m <= SE_FIT_MAX_PULSE && ((cfg->fit_overlaps && npeaks > 0) ||
-                                  (cfg->reference_kind == SE_REF_CHANNEL && !res->noise_floored))) {
-        mdl = se_echo_model_create(ref, m, err);
-        if (mdl == NULL) {
-            st = err ? err->code : SE_ERR_NOMEM;
-            goto out;
-        }
-    }
-    if (mdl != NULL && cfg->fit_overlaps && npeaks > 0 && !skin) {
-        st = se_refit_overlaps(xr, mdl, ref, res, direct, res->noise_floored ? INFINITY : thr,
+    /* Overlapping echoes: least squares on the response, started from CLEAN (fitecho.h). The
+     * echo model is made when a group is first fitted (none on noise-floored records or with
+     * weak lone echoes only), or for the dead-zone scan below. */
+    if (m <= SE_FIT_MAX_PULSE && cfg->fit_overlaps && npeaks > 0 && !skin) {
+        st = se_refit_overlaps(xr, &mdl, ref, m, res, direct, res->noise_floored ? INFINITY : thr,
                                prof, kthr, hw, &peaks, &npeaks, &lag_sd, &amp_sd, err);
         if (st != SE_OK)
             goto out;
@@ -741,8 +735,12 @@ se_status se_locate_finish(se_locate_stage *sgp, se_locate_config *lcp, int rs_u
     se_apply_losses(&lc, res);
     /* Echoes inside the dead zone: flagged, never hidden (only with the pulse channel as the
      * reference, whose shape is the direct arrival's, and on records with measured noise). */
-    if (mdl != NULL && cfg->reference_kind == SE_REF_CHANNEL && !res->noise_floored) {
+    if (m <= SE_FIT_MAX_PULSE && cfg->reference_kind == SE_REF_CHANNEL && !res->noise_floored) {
         double szone = varies ? se_noise_profile_sigma(prof, (double)start) : sigma;
+        if (mdl == NULL && (mdl = se_echo_model_create(ref, m, err)) == NULL) {
+            st = err ? err->code : SE_ERR_NOMEM;
+            goto out;
+        }
         st = se_dead_zone_scan(xr, mdl, direct, peaks, npeaks, dead, kthr * szone, szone, hw,
                                lc.source_reflection, rate_hz, gsl_cdf_ugaussian_Pinv(0.5 + 0.5 * cfg->confidence), map, res, err);
         if (st != SE_OK)
@@ -1515,14 +1513,15 @@ static double se_residual_peak(const double *res, size_t len, const double *ref,
  * taken when that residual passes; otherwise kept low confidence (intervals widened to the main
  * lobe). *lag_sd, *amp_sd: [size: *npeaks],
  * NaN where CLEAN's estimate was kept. */
-static se_status se_refit_overlaps(const se_sample_reader *x, const se_echo_model *mdl,
-                                   const double *ref, const se_locate_result *res,
+static se_status se_refit_overlaps(const se_sample_reader *x, se_echo_model **mdlp,
+                                   const double *ref, size_t m, const se_locate_result *res,
                                    const se_peak *direct,
                                    double thr_all, const se_noise_profile *prof, double kthr,
                                    double hw, se_peak **peaks, size_t *npeaks, double **lag_sd,
                                    double **amp_sd, se_error *err)
 {
-    size_t m = se_echo_model_length(mdl), np = *npeaks, g0, g1, i, j, nout = 0, cap, n = x->n;
+    size_t np = *npeaks, g0, g1, i, j, nout = 0, cap, n = x->n;
+    se_echo_model *mdl = *mdlp;
     se_peak *in = *peaks, *out = NULL;
     double *lsd = NULL, *asd = NULL, *w = NULL, *resid = NULL;
     se_echo init[16];
@@ -1566,6 +1565,10 @@ static se_status se_refit_overlaps(const se_sample_reader *x, const se_echo_mode
         len = e > b ? e - b : 0;
         if (len < 16 || len > 4 * m + 8 || se_window_clipped(res, b, len))
             goto keep_clean; /* a clipped echo does not follow the model */
+        if (mdl == NULL && (mdl = *mdlp = se_echo_model_create(ref, m, err)) == NULL) {
+            st = err ? err->code : SE_ERR_NOMEM;
+            goto fail;
+        }
         /* the window with every other echo (and the direct arrival) taken out */
         if ((st = x->read(x->ctx, b, len, w, err)) != SE_OK)
             goto fail;

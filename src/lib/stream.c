@@ -54,15 +54,6 @@ typedef struct se_window {
     double cmax;
 } se_window;
 
-typedef struct se_worker {
-    const se_xcorr *xc;
-    se_xcorr_work *w;
-    const double *x;
-    size_t n, nout;
-    double *r;
-    se_status st;
-    se_error err;
-} se_worker;
 
 /* The file being read: the response channel ch of nch; rawf: native-endian float data, read raw
  * through fbuf [size: SE_STREAM_READ_FRAMES nch]; other multichannel data through inter. */
@@ -150,7 +141,6 @@ static void se_clip_close(se_sl *s);
 static void se_clip_sample(se_sl *s, size_t i, double v);
 static void se_clip_result(const se_sl *s, se_locate_result *res);
 static se_status se_provisional(se_sl *s, se_error *err);
-static void *se_worker_run(void *arg);
 static se_status se_pass(se_sl *s, se_src *src, const se_xcorr *xc, se_xcorr_work *const *w,
                          unsigned threads, size_t lc, se_pass_hook hook, void *hook_ctx,
                          se_error *err);
@@ -192,13 +182,6 @@ void se_stream_config_init(se_stream_config *scfg)
     scfg->threads = 2;
 }
 
-static void *se_worker_run(void *arg)
-{
-    se_worker *wk = arg;
-    se_error_clear(&wk->err);
-    wk->st = se_xcorr_run_part(wk->xc, wk->w, wk->x, wk->n, wk->nout, wk->r, &wk->err);
-    return NULL;
-}
 
 /* ---- clipping: runs of equal samples at the record's extremes (se_locate's rule) ---- */
 
@@ -894,273 +877,214 @@ done:
     return st;
 }
 
-/* The reading side of a pass: fill buf up to want samples (after the tail already there), check
- * they are finite, track clipping, SE_STREAM_READ_FRAMES at a time while they are in cache. Runs
- * beside the correlation of the chunk before. */
-typedef struct se_reader {
-    se_sl *s;
-    se_src *src;
-    double *buf;
-    size_t have, want, readpos; /* readpos: frame of the file at buf[have] */
+/* ---- one pass over the file ----
+ * The lags are cut in chunks of lc (a multiple of the step): chunk k is r[k lc, (k+1) lc), the
+ * last one running to the record's end, correlated from its own input x[k lc, (k+1) lc + m - 1)
+ * read from the file, so that se_xcorr_run_part gives what the whole record gives, bit for bit.
+ * With two threads, two correlating threads live for the whole pass, each with its own handle
+ * on the file, and take the next chunk in turn; the calling thread scans the chunks in order
+ * (clipping, then se_sl_chunk) from a ring of SE_STREAM_RING slots. Nothing is started or joined
+ * per chunk, and the correlators never wait for each other, only for a free slot: on a machine
+ * whose cores wake slowly, a barrier per chunk cost more than the scan. */
+typedef struct se_slot {
+    double *x, *r; /* [size: lc + m - 1], [size: lc] */
+    size_t c0, c1; /* the chunk's lags */
+    int ready;
     se_status st;
     se_error err;
-} se_reader;
+} se_slot;
 
-static void *se_reader_run(void *arg)
-{
-    se_reader *rd = arg;
-    size_t take, bad, done;
-    se_error_clear(&rd->err);
-    rd->st = SE_OK;
-    if (rd->have >= rd->want || rd->readpos >= rd->s->n)
-        return NULL;
-    take = rd->want - rd->have < rd->s->n - rd->readpos ? rd->want - rd->have : rd->s->n - rd->readpos;
-    for (done = 0; done < take;) {
-        size_t piece = take - done < SE_STREAM_READ_FRAMES ? take - done : SE_STREAM_READ_FRAMES;
-        double *x = rd->buf + rd->have + done;
-        rd->st = se_read_range(rd->src, SIZE_MAX, piece, x, &rd->err);
-        if (rd->st != SE_OK)
-            return NULL;
-        bad = rd->s->pass0 ? se_first_bad(x, piece) : se_clip_block(rd->s, rd->readpos + done, x, piece);
-        if (bad < piece) {
-            rd->st = se_fail(&rd->err, SE_ERR_DATA, "%s: sample %zu (channel %u) is %s", rd->src->path,
-                             rd->readpos + done + bad, rd->src->ch + 1,
-                             isnan(x[bad]) ? "NaN" : "infinite");
-            return NULL;
-        }
-        done += piece;
-    }
-    rd->have += take;
-    rd->readpos += take;
-    return NULL;
-}
-
-/* The correlating side of a pass (se_pass): two input buffers, the next chunk read (a third,
- * mostly waiting thread) while this one is correlated, the m - 1 samples of overlap copied from
- * one to the other; with two threads, in a thread of its own, r handed over through a ring of
- * SE_STREAM_RING chunks so that the caller scans one chunk while the next are correlated (and
- * the reference's autocorrelation is made while the first ones are). The reader touches only the
- * clipping fields of s, the caller's scan the others. */
-typedef struct se_prod {
-    se_sl *s;
+typedef struct se_passq {
+    const se_sl *s;
     const se_xcorr *xc;
-    se_xcorr_work *const *w;
-    unsigned threads;
-    size_t lc, base;
-    double *xb[2];
-    int cur;
-    se_reader rd;
-    double *ring[SE_STREAM_RING];
-    size_t rc0[SE_STREAM_RING], rc1[SE_STREAM_RING];
-    size_t made, used; /* chunks correlated, chunks scanned */
-    int stop, finished;
+    size_t lc, nchunks, next, used; /* next: the next chunk to take; used: chunks scanned */
+    se_slot slot[SE_STREAM_RING];
+    int stop;
     pthread_mutex_t mu;
     pthread_cond_t cv;
-    se_status st;
-    se_error err;
-} se_prod;
+} se_passq;
 
-/* The chunk at P->base into r [size: threads lc]; *lags_out: its lag count. */
-static se_status se_prod_step(se_prod *P, double *r, size_t *lags_out, se_error *err)
+/* One correlating thread: its handle on the file and its FFT buffers. */
+typedef struct se_corr {
+    se_passq *q;
+    se_src *src;
+    se_xcorr_work *w;
+} se_corr;
+
+/* Chunk k into sl: x read, then r. se_xcorr_run_part tests x finite; the first non-finite sample
+ * is then named (the scan takes the chunks in order, so the first it meets is the record's
+ * first). */
+static void se_chunk_make(const se_passq *q, se_src *src, se_xcorr_work *w, size_t k, se_slot *sl)
 {
-    size_t m = P->s->m, n = P->s->n, lc = P->lc, have = P->rd.have, nsub, lags, t;
-    const double *x = P->xb[P->cur];
-    int eof = P->rd.readpos == n, rspawn = 0, spawned = 0;
-    se_worker wk[2];
-    pthread_t tid, rtid;
-    lags = eof ? have : have - (m - 1);
-    nsub = (lags + lc - 1) / lc;
-    if (nsub > P->threads)
-        nsub = P->threads;
-    for (t = 0; t < nsub; t++) {
-        size_t off = t * lc;
-        wk[t].xc = P->xc;
-        wk[t].w = P->w[t];
-        wk[t].x = x + off;
-        wk[t].nout = lags - off < lc ? lags - off : lc;
-        wk[t].n = have - off < wk[t].nout + m - 1 ? have - off : wk[t].nout + m - 1;
-        wk[t].r = r + off;
-    }
-    lags = 0;
-    for (t = 0; t < nsub; t++)
-        lags += wk[t].nout;
-    /* the next chunk: the overlap, then what the file gives */
-    P->rd.buf = P->xb[1 - P->cur];
-    P->rd.have = have - lags;
-    memcpy(P->rd.buf, x + lags, P->rd.have * sizeof *x);
-    P->rd.st = SE_OK;
-    if (!eof && P->threads > 1)
-        rspawn = pthread_create(&rtid, NULL, se_reader_run, &P->rd) == 0;
-    if (nsub == 2)
-        spawned = pthread_create(&tid, NULL, se_worker_run, &wk[1]) == 0;
-    se_worker_run(&wk[0]);
-    if (nsub == 2) {
-        if (spawned)
-            pthread_join(tid, NULL);
-        else
-            se_worker_run(&wk[1]); /* no thread available: same values serially */
-    }
-    if (rspawn)
-        pthread_join(rtid, NULL);
-    for (t = 0; t < nsub; t++)
-        if (wk[t].st != SE_OK)
-            return se_fail(err, wk[t].st, "%s", wk[t].err.message);
-    if (!eof && !rspawn)
-        se_reader_run(&P->rd); /* one thread, or none to spare: read now */
-    if (P->rd.st != SE_OK)
-        return se_fail(err, P->rd.st, "%s", P->rd.err.message);
-    *lags_out = lags;
-    P->cur = 1 - P->cur;
-    return SE_OK;
+    size_t n = q->s->n, m = q->s->m, c0 = k * q->lc, c1 = c0 + q->lc < n ? c0 + q->lc : n;
+    size_t nx = c1 + m - 1 < n ? c1 - c0 + m - 1 : n - c0, bad;
+    sl->c0 = c0;
+    sl->c1 = c1;
+    se_error_clear(&sl->err);
+    if ((sl->st = se_read_range(src, c0, nx, sl->x, &sl->err)) != SE_OK)
+        return;
+    sl->st = se_xcorr_run_part(q->xc, w, sl->x, nx, c1 - c0, sl->r, &sl->err);
+    if (sl->st == SE_ERR_DATA && (bad = se_first_bad(sl->x, nx)) < nx)
+        sl->st = se_fail(&sl->err, SE_ERR_DATA, "%s: sample %zu (channel %u) is %s", src->path,
+                         c0 + bad, src->ch + 1, isnan(sl->x[bad]) ? "NaN" : "infinite");
 }
 
-/* First fill of the input buffer. */
-static se_status se_prod_first(se_prod *P, se_error *err)
+static void *se_corr_run(void *arg)
 {
-    se_reader_run(&P->rd);
-    if (P->rd.st != SE_OK)
-        return se_fail(err, P->rd.st, "%s", P->rd.err.message);
-    return SE_OK;
-}
-
-static void *se_prod_run(void *arg)
-{
-    se_prod *P = arg;
-    se_status st;
-    se_error_clear(&P->err);
-    st = se_prod_first(P, &P->err);
-    while (st == SE_OK && P->base < P->s->n) {
-        size_t slot, lags = 0;
-        pthread_mutex_lock(&P->mu);
-        while (P->made - P->used == SE_STREAM_RING && !P->stop)
-            pthread_cond_wait(&P->cv, &P->mu);
-        slot = P->made % SE_STREAM_RING;
-        if (P->stop) {
-            pthread_mutex_unlock(&P->mu);
-            break;
+    se_corr *c = arg;
+    se_passq *q = c->q;
+    for (;;) {
+        size_t k;
+        se_slot *sl;
+        pthread_mutex_lock(&q->mu);
+        while (!q->stop && q->next < q->nchunks && q->next - q->used >= SE_STREAM_RING)
+            pthread_cond_wait(&q->cv, &q->mu);
+        if (q->stop || q->next >= q->nchunks) {
+            pthread_mutex_unlock(&q->mu);
+            return NULL;
         }
-        pthread_mutex_unlock(&P->mu);
-        if ((st = se_prod_step(P, P->ring[slot], &lags, &P->err)) != SE_OK)
-            break;
-        pthread_mutex_lock(&P->mu);
-        P->rc0[slot] = P->base;
-        P->rc1[slot] = P->base + lags;
-        P->made++;
-        pthread_cond_broadcast(&P->cv);
-        pthread_mutex_unlock(&P->mu);
-        P->base += lags;
+        k = q->next++;
+        pthread_mutex_unlock(&q->mu);
+        sl = &q->slot[k % SE_STREAM_RING];
+        se_chunk_make(q, c->src, c->w, k, sl);
+        pthread_mutex_lock(&q->mu);
+        sl->ready = 1;
+        pthread_cond_broadcast(&q->cv);
+        pthread_mutex_unlock(&q->mu);
+        if (sl->st != SE_OK)
+            return NULL; /* the scan stops there; the chunks before are the other thread's */
     }
-    pthread_mutex_lock(&P->mu);
-    P->st = st;
-    P->finished = 1;
-    pthread_cond_broadcast(&P->cv);
-    pthread_mutex_unlock(&P->mu);
-    return NULL;
 }
 
-/* One pass over the file: read the response channel, correlate chunks of lc lags (threads at a
- * time), hand r to se_sl_chunk in order. hook (may be NULL) runs in this thread once the
- * correlation has started, before the first chunk is scanned. */
+/* A second handle on src's file for a correlating thread, read the same way. */
+static int se_src_twin(const se_src *src, se_src *twin)
+{
+    SF_INFO sfi;
+    memset(twin, 0, sizeof *twin);
+    memset(&sfi, 0, sizeof sfi);
+    *twin = *src;
+    twin->fbuf = NULL;
+    twin->inter = NULL;
+    twin->snd = sf_open(src->path, SFM_READ, &sfi);
+    if (twin->snd == NULL)
+        return 0;
+    sf_command(twin->snd, SFC_SET_SCALE_FLOAT_INT_READ, NULL, SF_FALSE);
+    if ((unsigned)sfi.channels != src->nch)
+        return 0;
+    if (src->rawf)
+        twin->fbuf = malloc((size_t)SE_STREAM_READ_FRAMES * src->nch * sizeof *twin->fbuf);
+    else if (src->nch > 1)
+        twin->inter = malloc((size_t)SE_STREAM_READ_FRAMES * src->nch * sizeof *twin->inter);
+    return !((src->rawf && twin->fbuf == NULL) || (!src->rawf && src->nch > 1 && twin->inter == NULL));
+}
+
+static void se_src_close(se_src *src)
+{
+    if (src->snd != NULL)
+        sf_close(src->snd);
+    free(src->fbuf);
+    free(src->inter);
+    memset(src, 0, sizeof *src);
+}
+
+/* One pass over the file: the response channel read and correlated in chunks of lc lags, r handed
+ * to se_sl_chunk in order (after the clipping scan of the chunk's samples). hook (may be NULL)
+ * runs in this thread once the correlation has started, before the first chunk is scanned. */
 static se_status se_pass(se_sl *s, se_src *src, const se_xcorr *xc, se_xcorr_work *const *w,
                          unsigned threads, size_t lc, se_pass_hook hook, void *hook_ctx,
                          se_error *err)
 {
-    size_t m = s->m, n = s->n, cap = threads * lc + m, i, nring = threads > 1 ? SE_STREAM_RING : 1;
-    se_prod P;
-    pthread_t ptid;
-    int threaded = 0, sync_ok = 0;
-    se_status st = SE_OK, pst;
+    size_t m = s->m, n = s->n, i, k, nslots = threads > 1 ? SE_STREAM_RING : 1;
+    se_passq q;
+    se_src twin;
+    se_corr cr[2];
+    pthread_t tid[2];
+    int started[2] = {0, 0}, sync_ok = 0, twin_ok = 0;
+    unsigned nt = 0;
+    se_status st = SE_OK;
 
-    if (sf_seek(src->snd, 0, SEEK_SET) != 0)
-        return se_fail(err, SE_ERR_IO, "%s: cannot rewind for another pass", src->path);
-    memset(&P, 0, sizeof P);
-    P.s = s;
-    P.xc = xc;
-    P.w = w;
-    P.threads = threads;
-    P.lc = lc;
-    P.xb[0] = malloc(cap * sizeof *P.xb[0]);
-    P.xb[1] = malloc(cap * sizeof *P.xb[1]);
-    for (i = 0; i < nring; i++)
-        P.ring[i] = malloc(threads * lc * sizeof *P.ring[i]);
-    if (P.xb[0] == NULL || P.xb[1] == NULL || P.ring[nring - 1] == NULL ||
-        (nring > 1 && P.ring[0] == NULL)) {
-        st = se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate chunk buffers of %zu samples", cap);
-        goto done;
-    }
-    for (i = 0; i < nring; i++)
-        if (P.ring[i] == NULL) {
-            st = se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate chunk buffers of %zu samples", cap);
+    memset(&q, 0, sizeof q);
+    memset(&twin, 0, sizeof twin);
+    q.s = s;
+    q.xc = xc;
+    q.lc = lc;
+    q.nchunks = (n + lc - 1) / lc;
+    for (i = 0; i < nslots; i++) {
+        q.slot[i].x = malloc((lc + m - 1) * sizeof *q.slot[i].x);
+        q.slot[i].r = malloc(lc * sizeof *q.slot[i].r);
+        if (q.slot[i].x == NULL || q.slot[i].r == NULL) {
+            st = se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate chunk buffers of %zu samples",
+                         lc + m - 1);
             goto done;
         }
-    P.rd.s = s;
-    P.rd.src = src;
-    P.rd.buf = P.xb[0];
-    P.rd.want = threads * lc + m - 1;
-    if (threads > 1 && pthread_mutex_init(&P.mu, NULL) == 0) {
-        if (pthread_cond_init(&P.cv, NULL) == 0) {
+    }
+    if (threads > 1 && pthread_mutex_init(&q.mu, NULL) == 0) {
+        if (pthread_cond_init(&q.cv, NULL) == 0)
             sync_ok = 1;
-            threaded = pthread_create(&ptid, NULL, se_prod_run, &P) == 0;
-            if (!threaded) {
-                pthread_cond_destroy(&P.cv);
-                pthread_mutex_destroy(&P.mu);
-                sync_ok = 0;
-            }
-        } else {
-            pthread_mutex_destroy(&P.mu);
+        else
+            pthread_mutex_destroy(&q.mu);
+    }
+    if (sync_ok) {
+        twin_ok = se_src_twin(src, &twin);
+        for (i = 0; i < (twin_ok ? 2u : 1u); i++) {
+            cr[i].q = &q;
+            cr[i].src = i == 0 ? src : &twin;
+            cr[i].w = w[i];
+            started[i] = pthread_create(&tid[i], NULL, se_corr_run, &cr[i]) == 0;
+            nt += started[i] != 0;
         }
     }
     if (hook != NULL)
         st = hook(hook_ctx, err);
-    if (!threaded) {
-        /* one thread (or none to spare): correlate, then scan, chunk after chunk */
-        if (st == SE_OK)
-            st = se_prod_first(&P, err);
-        while (st == SE_OK && P.base < n) {
-            size_t lags = 0;
-            if ((st = se_prod_step(&P, P.ring[0], &lags, err)) != SE_OK)
-                break;
-            st = se_sl_chunk(s, P.base, P.base + lags, P.ring[0], err);
-            P.base += lags;
+    for (k = 0; k < q.nchunks && st == SE_OK; k++) {
+        se_slot *sl = &q.slot[nt > 0 ? k % SE_STREAM_RING : 0];
+        if (nt > 0) {
+            pthread_mutex_lock(&q.mu);
+            while (!sl->ready)
+                pthread_cond_wait(&q.cv, &q.mu);
+            pthread_mutex_unlock(&q.mu);
+        } else {
+            se_chunk_make(&q, src, w[0], k, sl);
         }
-    } else {
-        while (st == SE_OK) {
-            size_t slot;
-            pthread_mutex_lock(&P.mu);
-            while (P.used == P.made && !P.finished)
-                pthread_cond_wait(&P.cv, &P.mu);
-            if (P.used == P.made) { /* finished, all scanned */
-                pthread_mutex_unlock(&P.mu);
-                break;
-            }
-            slot = P.used % SE_STREAM_RING;
-            pthread_mutex_unlock(&P.mu);
-            st = se_sl_chunk(s, P.rc0[slot], P.rc1[slot], P.ring[slot], err);
-            pthread_mutex_lock(&P.mu);
-            P.used++;
-            pthread_cond_broadcast(&P.cv);
-            pthread_mutex_unlock(&P.mu);
+        if (sl->st != SE_OK) {
+            st = se_fail(err, sl->st, "%s", sl->err.message);
+        } else {
+            size_t len = sl->c1 - sl->c0;
+            if (!s->pass0 && se_clip_block(s, sl->c0, sl->x, len) < len) /* tested finite */
+                st = se_fail(err, SE_ERR_DATA, "%s: a sample of frames %zu to %zu is not finite",
+                             src->path, sl->c0, sl->c1 - 1);
+            if (st == SE_OK)
+                st = se_sl_chunk(s, sl->c0, sl->c1, sl->r, err);
         }
-        pthread_mutex_lock(&P.mu);
-        P.stop = 1;
-        pthread_cond_broadcast(&P.cv);
-        pthread_mutex_unlock(&P.mu);
-        pthread_join(ptid, NULL);
-        pst = P.st;
-        if (st == SE_OK && pst != SE_OK)
-            st = se_fail(err, pst, "%s", P.err.message);
+        if (nt > 0) {
+            pthread_mutex_lock(&q.mu);
+            sl->ready = 0;
+            q.used++;
+            pthread_cond_broadcast(&q.cv);
+            pthread_mutex_unlock(&q.mu);
+        }
     }
+    if (nt > 0) {
+        pthread_mutex_lock(&q.mu);
+        q.stop = 1;
+        pthread_cond_broadcast(&q.cv);
+        pthread_mutex_unlock(&q.mu);
+    }
+    for (i = 0; i < 2; i++)
+        if (started[i])
+            pthread_join(tid[i], NULL);
     if (st == SE_OK && !s->pass0)
         se_clip_close(s);
 done:
     if (sync_ok) {
-        pthread_cond_destroy(&P.cv);
-        pthread_mutex_destroy(&P.mu);
+        pthread_cond_destroy(&q.cv);
+        pthread_mutex_destroy(&q.mu);
     }
-    free(P.xb[0]);
-    free(P.xb[1]);
-    for (i = 0; i < nring; i++)
-        free(P.ring[i]);
+    se_src_close(&twin); /* zeroed when never opened */
+    for (i = 0; i < nslots; i++) {
+        free(q.slot[i].x);
+        free(q.slot[i].r);
+    }
     return st;
 }
 
