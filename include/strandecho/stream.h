@@ -1,7 +1,8 @@
 /* strandecho: streaming locate. The locator of locate.h run on a recording read from libsndfile in
  * blocks, so memory does not grow with the record: the matched filter is computed chunk by chunk
- * (overlap-save, se_xcorr_run_part, up to two threads, the next chunk read meanwhile, the
- * correlation running ahead of the scan by up to 8 chunks), the noise
+ * (overlap-save, se_xcorr_run_part; with two threads, two correlating threads that live for the
+ * whole pass, each reading its own chunks through its own handle on the file, up to 8 chunks
+ * ahead of the scan, which takes them in order in the calling thread), the noise
  * is estimated on the same strided sample of lags se_locate uses (se_noise_mad), lags are scanned
  * in blocks against a pre-threshold (0.8 of the threshold the noise of the first 2^15 lags after
  * the direct arrival implies) and only the extent of each cluster of candidates is kept; at the
@@ -45,8 +46,8 @@
  * both plan with FFTW_ESTIMATE (the default here), within ~1e-12 sample otherwise; see
  * se_locate_stream for the two cases where the answer can differ.
  *
- * Memory: 8 (2 T + 2) chunk doubles (two input buffers, T threads), 8 T chunk doubles of output
- * (the ring of 8 chunks the correlation fills ahead of the scan), 2 MiB around the direct
+ * Memory: a ring of 8 chunks (one with one thread), each its input (block + m - 1 doubles) and
+ * its output (block doubles), a second file handle with two threads, 2 MiB around the direct
  * arrival, 16 bytes per sampled noise lag (2 MiB at the default 2^16; twice during the final
  * median), 24 bytes per candidate cluster, the reference's autocorrelation tables (made during
  * the pass), and two recomputed windows (about 5 pulse lengths plus a block each) at a time; peak
@@ -74,10 +75,11 @@ typedef struct se_stream_config {
                                  pulse_window samples of that channel and used as the reference
                                  (SE_REF_CHANNEL, offset where it starts), replacing cfg's */
     size_t pulse_window;      /* samples of the pulse channel searched (0 = 2^20) */
-    size_t block;             /* lags correlated per chunk and thread (0 = 2^16), rounded down to a
+    size_t block;             /* lags correlated per chunk (0 = 2^16), rounded down to a
                                  multiple of the engine's step (at least one step) */
-    unsigned threads;         /* 1 or 2 worker threads for the correlation (0 = 2); with 2, a third
-                                 thread reads the next chunk meanwhile. Results do not depend on it */
+    unsigned threads;         /* 1 or 2 threads reading and correlating chunks (0 = 2); with 2
+                                 the calling thread scans beside them, with 1 it reads, correlates
+                                 and scans in turn. Results do not depend on it */
     size_t noise_samples;     /* lags sampled for the noise (0 = 2^16, as se_locate) */
     const char *wisdom_path;  /* FFTW wisdom file (see se_xcorr_config), NULL = none */
     int measure;              /* 1: FFTW_MEASURE when the wisdom lacks the size (then the values

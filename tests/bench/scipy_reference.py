@@ -14,6 +14,7 @@ excluded) and the refined lags.
 """
 import sys
 import time
+import warnings
 
 import numpy as np
 import scipy.io.wavfile
@@ -23,7 +24,10 @@ import scipy.signal
 def main():
     path, pulse_path, k = sys.argv[1], sys.argv[2], float(sys.argv[3])
     t0 = time.perf_counter()
-    _, x = scipy.io.wavfile.read(path)
+    with warnings.catch_warnings():
+        # libsndfile's PEAK chunk is not one scipy reads: it says so and skips it
+        warnings.simplefilter("ignore", scipy.io.wavfile.WavFileWarning)
+        _, x = scipy.io.wavfile.read(path)
     x = np.asarray(x, dtype=np.float64)
     s = np.fromfile(pulse_path, dtype="<f8")
     # r[k] = sum_j x[k+j] s[j] / E_s, zero beyond the record (as strandecho's xcorr.h)
