@@ -152,9 +152,10 @@ double se_noise_profile_sigma(const se_noise_profile *p, double lag);
 void se_noise_profile_free(se_noise_profile *p);
 
 typedef struct se_peak {
-    double lag;        /* refined fractional lag, samples (index into r) */
+    double lag;        /* refined fractional lag, samples (index into r; from se_detect, plus
+                          the config's origin) */
     double amplitude;  /* signed r value at the refined lag (band-limited), in r's units */
-    size_t index;      /* integer argmax it came from */
+    size_t index;      /* integer argmax it came from (the same origin) */
 } se_peak;
 
 typedef struct se_detect_config {
@@ -169,6 +170,13 @@ typedef struct se_detect_config {
      * |residual| relative to its own lag's threshold first. threshold must still be > 0. */
     const se_noise_profile *profile;
     double profile_sigmas;
+    /* Record index of r[0] when r is a window of a longer matched-filter output (0: r is the
+     * whole of it). The lags of known and of the peaks returned, and the peaks' index, are then
+     * record indices, and CLEAN's arithmetic is done on them (the acf evaluated at record index
+     * minus record lag, each lag formed as integer peak plus offset, rounded once): a window
+     * holding the same r values gives the peaks of the whole r bit for bit. start, end and
+     * the profile stay indices into r. */
+    size_t origin;
 } se_detect_config;
 
 /* CLEAN (J. Hogbom, A&AS 15, 1974) on r [size: n]: repeatedly take the largest |residual| in

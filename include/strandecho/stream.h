@@ -132,9 +132,9 @@ void se_stream_config_init(se_stream_config *scfg);
  * The answer can differ from se_locate's only (1) when more than cfg->max_events peaks pass the
  * threshold (the streaming run keeps the largest, CLEAN on the whole record the first found),
  * (2) with a pulse channel longer than pulse_window (se_pulse_support then sees a prefix),
- * (3) for repeated shots without a pulse channel (not stacked here), and (4) by a few 1e-9 s on
- * the weak echoes of an overlapping reverberation train, which CLEAN refines from the window's
- * start instead of the record's (and, through them, an estimated r_s by ~1e-8). With a pulse channel,
+ * and (3) for repeated shots without a pulse channel (not stacked here). CLEAN on a window of r
+ * works on record lags (se_detect_config.origin), so even the weak echoes of an overlapping
+ * reverberation train come out as on the whole record, bit for bit. With a pulse channel,
  * se_locate is the run with cfg->pilot = that channel; a record of repeated shots is stacked as
  * described above (info->shots counts the shots by se_shot_status).
  * Errors: as se_locate, plus SE_ERR_IO / SE_ERR_FORMAT from the file (named), SE_ERR_DATA for a

@@ -18,10 +18,11 @@ static double se_select(double *v, size_t n, size_t k);
 static double se_median(double *v, size_t n);
 static double se_mad(double *v, size_t n, double *median);
 static int se_peak_cmp(const void *a, const void *b);
-static void se_subtract(double *res, size_t lo, size_t hi, const se_acf *acf, double lag, double amp);
+static void se_subtract(double *res, size_t base, size_t len, const se_acf *acf, double lag,
+                        double amp);
 static void se_cell_max(const double *res, size_t lo, size_t start, size_t end, size_t s0, size_t s1,
                         const se_noise_profile *prof, double k, double *cmax, size_t *carg);
-static void se_backfit(double *res, size_t lo, size_t hi, const se_acf *acf, size_t win, se_peak *list,
+static void se_backfit(double *res, size_t base, size_t len, const se_acf *acf, size_t win, se_peak *list,
                        size_t found, double *lmin, double *lmax);
 
 /* k-th smallest (0-based) of v [size: n], quickselect with a median-of-three pivot and a
@@ -158,18 +159,20 @@ static int se_peak_cmp(const void *a, const void *b)
     return (la > lb) - (la < lb);
 }
 
-/* res[j - lo] -= amp acf(j - lag) for j in [lo, hi) within the acf support */
-static void se_subtract(double *res, size_t lo, size_t hi, const se_acf *acf, double lag, double amp)
+/* res[j - base] -= amp acf(j - lag) for record indices j in [base, base + len) within the acf
+ * support (base: the record index of res[0]; lag a record lag) */
+static void se_subtract(double *res, size_t base, size_t len, const se_acf *acf, double lag,
+                        double amp)
 {
     double ext = (double)se_acf_half_length(acf);
     double a = ceil(lag - ext), b = floor(lag + ext);
     size_t j0, j1, j;
-    if (b < (double)lo || a > (double)hi - 1.0)
+    if (b < (double)base || a > (double)(base + len) - 1.0)
         return;
-    j0 = a < (double)lo ? lo : (size_t)a;
-    j1 = b > (double)hi - 1.0 ? hi - 1 : (size_t)b;
+    j0 = a < (double)base ? base : (size_t)a;
+    j1 = b > (double)(base + len) - 1.0 ? base + len - 1 : (size_t)b;
     for (j = j0; j <= j1; j++)
-        res[j - lo] -= amp * se_acf_value(acf, (double)j - lag);
+        res[j - base] -= amp * se_acf_value(acf, (double)j - lag);
 }
 
 /* Maxima of |res| in the cells covering [s0, s1): cell c is [start + c CELL, start + (c+1) CELL)
@@ -203,8 +206,9 @@ static void se_cell_max(const double *res, size_t lo, size_t start, size_t end, 
  * back into the residual, re-refined and subtracted again, in sweeps, until lags move less than
  * 1e-7 sample (at most SE_DETECT_SWEEPS). Greedy CLEAN alone refines each echo on a residual that
  * still holds the overlapping neighbours' lobes, and the error would come back as false peaks.
+ * res holds the residual from record index base, len values; lags are record lags.
  * [*lmin, *lmax] is widened to the lags touched. */
-static void se_backfit(double *res, size_t lo, size_t hi, const se_acf *acf, size_t win, se_peak *list,
+static void se_backfit(double *res, size_t base, size_t len, const se_acf *acf, size_t win, se_peak *list,
                        size_t found, double *lmin, double *lmax)
 {
     double reach = 2.0 * (double)se_acf_half_length(acf);
@@ -217,16 +221,16 @@ static void se_backfit(double *res, size_t lo, size_t hi, const se_acf *acf, siz
     for (sweep = 0; sweep < SE_DETECT_SWEEPS; sweep++) {
         double moved = 0.0;
         for (i = 0; i < found; i++) {
-            double lag, amp, at = list[i].lag;
-            size_t k;
-            if (fabs(at - newest) > reach || at < (double)lo || at >= (double)hi)
+            double lag, amp, at = list[i].lag, tau;
+            size_t k, kp;
+            if (fabs(at - newest) > reach || at < (double)base || at >= (double)(base + len))
                 continue;
-            se_subtract(res, lo, hi, acf, at, -list[i].amplitude); /* put it back */
+            se_subtract(res, base, len, acf, at, -list[i].amplitude); /* put it back */
             k = (size_t)floor(at + 0.5);
-            if (k >= hi)
-                k = hi - 1;
-            if (se_refine_peak(res, hi - lo, k - lo, win, &lag, &amp, NULL) == SE_OK) {
-                lag += (double)lo;
+            if (k >= base + len)
+                k = base + len - 1;
+            if (se_refine_peak_at(res, len, k - base, win, &kp, &tau, &amp, NULL) == SE_OK) {
+                lag = (double)(base + kp) + tau;
             } else {
                 lag = at;
                 amp = list[i].amplitude;
@@ -235,7 +239,7 @@ static void se_backfit(double *res, size_t lo, size_t hi, const se_acf *acf, siz
                 moved = fabs(lag - at);
             list[i].lag = lag;
             list[i].amplitude = amp;
-            se_subtract(res, lo, hi, acf, lag, amp);
+            se_subtract(res, base, len, acf, lag, amp);
             if (lag < *lmin)
                 *lmin = lag;
             if (lag > *lmax)
@@ -304,7 +308,8 @@ se_status se_detect(const double *r, size_t n, const se_detect_config *cfg, se_p
         res[i - lo] = r[i];
     }
     for (i = 0; i < cfg->n_known; i++)
-        se_subtract(res, lo, hi, cfg->acf, cfg->known[i].lag, cfg->known[i].amplitude);
+        se_subtract(res, cfg->origin + lo, hi - lo, cfg->acf, cfg->known[i].lag,
+                    cfg->known[i].amplitude);
     /* cells are aligned on start: cell c covers [start + c CELL, start + (c+1) CELL) */
     if (prof != NULL) {
         if (!(cfg->profile_sigmas > 0.0) || !isfinite(cfg->profile_sigmas) || prof->n_blocks == 0 ||
@@ -319,18 +324,18 @@ se_status se_detect(const double *r, size_t n, const se_detect_config *cfg, se_p
                 carg);
 
     while (found < maxp) {
-        size_t c, best = 0, k, a, b;
-        double lag, amp, lmin, lmax;
+        size_t c, best = 0, k, a, b, kp, base = cfg->origin + lo;
+        double lag, amp, lmin, lmax, tau;
         for (c = 1; c < ncell; c++)
             if (cmax[c] > cmax[best])
                 best = c;
         if (!(cmax[best] >= thr))
             break;
         k = carg[best];
-        if (se_refine_peak(res, hi - lo, k - lo, win, &lag, &amp, NULL) == SE_OK) {
-            lag += (double)lo;
+        if (se_refine_peak_at(res, hi - lo, k - lo, win, &kp, &tau, &amp, NULL) == SE_OK) {
+            lag = (double)(base + kp) + tau;
         } else { /* keep the integer peak rather than lose the echo */
-            lag = (double)k;
+            lag = (double)(cfg->origin + k);
             amp = res[k - lo];
         }
         if (found == cap) {
@@ -348,12 +353,14 @@ se_status se_detect(const double *r, size_t n, const se_detect_config *cfg, se_p
         }
         list[found].lag = lag;
         list[found].amplitude = amp;
-        list[found].index = k;
+        list[found].index = cfg->origin + k;
         found++;
-        se_subtract(res, lo, hi, cfg->acf, lag, amp);
+        se_subtract(res, base, hi - lo, cfg->acf, lag, amp);
         lmin = lmax = lag;
-        se_backfit(res, lo, hi, cfg->acf, win, list, found, &lmin, &lmax);
-        /* refresh the cells the subtractions touched */
+        se_backfit(res, base, hi - lo, cfg->acf, win, list, found, &lmin, &lmax);
+        /* refresh the cells the subtractions touched (in r's indices) */
+        lmin -= (double)cfg->origin;
+        lmax -= (double)cfg->origin;
         a = lmin - (double)ext - 1.0 < (double)cfg->start ? cfg->start : (size_t)(lmin - (double)ext - 1.0);
         b = lmax + (double)ext + 2.0 > (double)cfg->end ? cfg->end : (size_t)(lmax + (double)ext + 2.0);
         if (a < b)

@@ -45,6 +45,13 @@ void se_strbuf_printf(se_strbuf *b, const char *fmt, ...) SE_PRINTF(2, 3);
  * spaces (not allowed in XML 1.0). */
 void se_strbuf_xml_escape(se_strbuf *b, const char *s);
 
+/* se_refine_peak with its answer in two parts: the integer peak *kpeak (after the uphill walk and
+ * the lobe check) and the offset *tau in (-1, 1) from it, so that a caller holding r from record
+ * index base forms the record lag (double)(base + *kpeak) + *tau, rounded once: the same double
+ * whichever window of r it was given (se_detect_config.origin). */
+se_status se_refine_peak_at(const double *r, size_t n, size_t k, size_t window_half, size_t *kpeak,
+                            double *tau, double *amp, se_error *err);
+
 /* The locator's last stage, shared by the whole-record pipeline (locate.c) and any streaming
  * one: from detected peaks of the matched-filter output to classified events with distances,
  * uncertainties, multiples and matches, and every result field that describes the record.

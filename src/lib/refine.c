@@ -141,6 +141,20 @@ static size_t se_next_lobe(const double *y, size_t from, size_t first, size_t la
 se_status se_refine_peak(const double *r, size_t n, size_t k, size_t window_half, double *lag,
                          double *amp, se_error *err)
 {
+    size_t kp = 0;
+    double tau = 0.0;
+    se_status st;
+    if (r != NULL && lag == NULL)
+        return se_fail(err, SE_ERR_ARG, "refine: NULL lag");
+    st = se_refine_peak_at(r, n, k, window_half, &kp, &tau, amp, err);
+    if (st == SE_OK)
+        *lag = (double)kp + tau;
+    return st;
+}
+
+se_status se_refine_peak_at(const double *r, size_t n, size_t k, size_t window_half, size_t *kpeak,
+                            double *tau_out, double *amp, se_error *err)
+{
     size_t h, lo, hi, len, c, j, steps;
     double *y;
     se_trig_window tw;
@@ -150,8 +164,9 @@ se_status se_refine_peak(const double *r, size_t n, size_t k, size_t window_half
     se_status st = SE_OK;
     int it, status;
 
-    if (r == NULL || lag == NULL || amp == NULL)
-        return se_fail(err, SE_ERR_ARG, "refine: NULL %s", r == NULL ? "data" : lag == NULL ? "lag" : "amplitude");
+    if (r == NULL || kpeak == NULL || tau_out == NULL || amp == NULL)
+        return se_fail(err, SE_ERR_ARG, "refine: NULL %s",
+                       r == NULL ? "data" : amp == NULL ? "amplitude" : "lag");
     if (n < 3 || k >= n)
         return se_fail(err, SE_ERR_ARG, "refine: index %zu outside %zu samples (need >= 3)", k, n);
     /* uphill to the local maximum of |r| */
@@ -172,7 +187,7 @@ se_status se_refine_peak(const double *r, size_t n, size_t k, size_t window_half
     hi = (n - 1 - k) > h ? k + h : n - 1;
     len = hi - lo + 1;
     c = k - lo;
-    y = malloc(len * sizeof *y);
+    y = calloc(len, sizeof *y); /* zeroed: gcc cannot see the loop below fill it */
     if (y == NULL)
         return se_fail(err, SE_ERR_NOMEM, "refine: cannot allocate a window of %zu samples", len);
     /* cosine taper over the outer half of each side, flat (exactly r) near the peak */
@@ -251,7 +266,8 @@ se_status se_refine_peak(const double *r, size_t n, size_t k, size_t window_half
     }
     if (c == 0 || c + 1 == len || !(lower < guess && guess < upper && fg < fl && fg < fu)) {
         /* at an end of the data, or a flat top: no bracket, keep the integer peak */
-        *lag = (double)k;
+        *kpeak = k;
+        *tau_out = 0.0;
         *amp = r[k];
         free(y);
         return SE_OK;
@@ -280,7 +296,8 @@ se_status se_refine_peak(const double *r, size_t n, size_t k, size_t window_half
                      status != GSL_SUCCESS ? gsl_strerror(status) : "iteration limit");
     } else {
         double tau = gsl_min_fminimizer_x_minimum(mz);
-        *lag = (double)k + tau;
+        *kpeak = k;
+        *tau_out = tau;
         *amp = se_trig_eval(&tw, tau);
     }
     gsl_min_fminimizer_free(mz);

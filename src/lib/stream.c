@@ -1608,10 +1608,11 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
             spawned = pthread_create(&ftid, NULL, se_wjob_fetch, nj) == 0;
         info->windows++;
         info->window_samples += len;
-        direct.lag = lag0 - (double)a;
+        direct.lag = lag0; /* record lags: dc.origin */
         direct.amplitude = a0;
-        direct.index = 0;
+        direct.index = s.k0;
         memset(&dc, 0, sizeof dc);
+        dc.origin = a;
         dc.start = cj->s0 - a;
         dc.end = cj->s1 - a;
         dc.threshold = thr;
@@ -1636,11 +1637,8 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
                 st = se_fail(err, SE_ERR_NOMEM, "stream: cannot grow the peak list");
             } else {
                 all = na;
-                for (j = 0; j < np; j++) {
-                    all[nall + j] = pk[j];
-                    all[nall + j].lag += (double)a;
-                    all[nall + j].index += a;
-                }
+                for (j = 0; j < np; j++)
+                    all[nall + j] = pk[j]; /* record lags already */
                 nall += np;
             }
         }
