@@ -401,6 +401,76 @@ static void test_detect_errors(void)
     se_acf_destroy(a);
 }
 
+/* A window of r searched with its origin gives the whole r's peaks bit for bit: a train of
+ * overlapping Ricker echoes (a reverberation, weak echoes among strong ones), whole range against
+ * two windows at different offsets, cut with the margins the streaming locate keeps. */
+static void test_window_origin(gsl_rng *rng)
+{
+    static const double lags[] = {5000.3, 5047.9, 5093.2, 5140.77, 5188.1, 5236.5, 5290.05};
+    static const double amps[] = {1.0, -0.45, 0.21, -0.09, 0.04, -0.017, 0.008};
+    const size_t half = 60, m = 2 * half + 1, n = 12000, ne = sizeof lags / sizeof lags[0];
+    double *s = sample_pulse(ricker_01, half), *x = malloc(n * sizeof *x), *r = malloc(n * sizeof *r);
+    se_error err;
+    se_xcorr *p = se_xcorr_create(s, m, 0, &err);
+    se_xcorr_work *w = p ? se_xcorr_work_create(p, &err) : NULL;
+    se_acf *a = se_acf_create(s, m, &err);
+    se_noise nz;
+    se_detect_config cfg;
+    se_peak *whole = NULL, *win = NULL;
+    size_t i, e, nw = 0, nv = 0, o;
+    static const size_t offsets[] = {3001, 4217};
+    if (!CHECK(w != NULL && a != NULL && x != NULL && r != NULL))
+        goto done;
+    for (i = 0; i < n; i++) {
+        x[i] = gsl_ran_gaussian(rng, 1e-4);
+        for (e = 0; e < ne; e++)
+            x[i] += amps[e] * ricker_01((double)i - lags[e] - (double)half);
+    }
+    CHECK(se_xcorr_run(p, w, x, n, r, &err) == SE_OK);
+    CHECK(se_noise_mad(r, 0, n, 0, &nz, &err) == SE_OK);
+    memset(&cfg, 0, sizeof cfg);
+    cfg.start = 400;
+    cfg.end = n - m;
+    cfg.threshold = se_rice_k((double)(cfg.end - cfg.start), se_acf_rms_bandwidth(a), 0.01) * nz.sigma;
+    cfg.acf = a;
+    if (!CHECK(se_detect(r, n, &cfg, &whole, &nw, &err) == SE_OK) || !CHECK(nw >= 6))
+        goto done;
+    for (o = 0; o < sizeof offsets / sizeof offsets[0]; o++) {
+        se_detect_config wc = cfg;
+        size_t off = offsets[o], len = 3000;
+        wc.start = 4700 - off;
+        wc.end = 5700 - off;
+        wc.origin = off;
+        if (!CHECK(se_detect(r + off, len, &wc, &win, &nv, &err) == SE_OK))
+            continue;
+        /* the whole run's peaks inside the window's range */
+        for (i = e = 0; i < nw; i++) {
+            if (whole[i].lag < 4700.0 || whole[i].lag >= 5700.0)
+                continue;
+            if (CHECK(e < nv)) {
+                if (!CHECK(win[e].lag == whole[i].lag && win[e].amplitude == whole[i].amplitude &&
+                           win[e].index == whole[i].index))
+                    fprintf(stderr, "  window at %zu: peak %zu lag %.17g, whole %.17g\n", off, e,
+                            win[e].lag, whole[i].lag);
+            }
+            e++;
+        }
+        CHECK(e == nv);
+        printf("  window at %zu: %zu peaks, the whole record's bit for bit\n", off, nv);
+        free(win);
+        win = NULL;
+    }
+done:
+    free(whole);
+    free(win);
+    se_acf_destroy(a);
+    se_xcorr_work_destroy(w);
+    se_xcorr_destroy(p);
+    free(s);
+    free(x);
+    free(r);
+}
+
 int main(void)
 {
     gsl_rng *rng = gsl_rng_alloc(gsl_rng_mt19937);
@@ -413,6 +483,7 @@ int main(void)
     test_false_alarms(rng);
     test_clean(rng);
     test_detect_errors();
+    test_window_origin(rng);
     gsl_rng_free(rng);
     return se_test_done("test_detect");
 }
