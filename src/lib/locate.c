@@ -5,6 +5,7 @@
 #include "strandecho/locate.h"
 
 #include <float.h>
+#include <pthread.h>
 #include <math.h>
 #include <stdint.h>
 #include <stdio.h>
@@ -1502,6 +1503,204 @@ static double se_residual_peak(const double *res, size_t len, const double *ref,
     return best;
 }
 
+/* One group of se_refit_overlaps: the peaks in[g0, g1), and what its fit gave. */
+typedef struct se_rgroup {
+    size_t g0, g1, b, len;
+    int close, todo;  /* todo: the group is fitted (else CLEAN's estimates are kept) */
+    double split_thr;
+    int fitted;       /* the fit's echoes replace CLEAN's */
+    se_echo *echo;    /* [size: no], lags in the window (from b), malloc'd */
+    size_t no;
+    int mismatch;
+    double rmax;
+} se_rgroup;
+
+/* The groups' fits, shared by the threads that take them in turn (se_refit_run). */
+typedef struct se_refit_job {
+    const se_sample_reader *x;
+    const se_echo_model *mdl;
+    const double *ref;
+    const se_peak *in, *direct;
+    size_t np, m;
+    double hw;
+    se_rgroup *gr;
+    size_t ngr, next;
+    pthread_mutex_t *mu; /* NULL with one thread; else guards next, st and the reads of x */
+    se_status st;        /* the first failure that ends the refit (allocation, reading) */
+    se_error err;
+} se_refit_job;
+
+/* Fit group g (its window read, the other echoes and the direct arrival taken out) with the
+ * buffers w, resid [size: 4 m + 8 each]. Returns SE_OK also when the fit fails and CLEAN's
+ * estimates stay (g->fitted 0); an error only for allocation or reading (in *err). */
+static se_status se_refit_group(se_refit_job *jb, se_rgroup *g, double *w, double *resid,
+                                se_error *err)
+{
+    const se_echo_model *mdl = jb->mdl;
+    const se_peak *in = jb->in;
+    size_t m = jb->m, np = jb->np, b = g->b, len = g->len, e = b + len, ng = g->g1 - g->g0, no = 0;
+    size_t i, j, q, g0 = g->g0, g1 = g->g1;
+    double lo = in[g0].lag, hi = in[g1 - 1].lag, hw = jb->hw, split_thr = g->split_thr;
+    se_echo init[16], *fit = NULL;
+    se_fitecho_config fc;
+    se_status st;
+    if (jb->mu != NULL)
+        pthread_mutex_lock(jb->mu);
+    st = jb->x->read(jb->x->ctx, b, len, w, err);
+    if (jb->mu != NULL)
+        pthread_mutex_unlock(jb->mu);
+    if (st != SE_OK)
+        return st;
+    for (j = 0; j <= np; j++) {
+        const se_peak *o = j < np ? &in[j] : jb->direct;
+        if (j >= g0 && j < g1)
+            continue;
+        if (o->lag + (double)m + 2.0 < (double)b || o->lag - 2.0 > (double)e)
+            continue;
+        for (i = 0; i < len; i++)
+            w[i] -= o->amplitude * se_echo_model_value(mdl, (double)(b + i) - o->lag, NULL);
+    }
+    for (q = 0; q < ng; q++) {
+        init[q].lag = in[g0 + q].lag - (double)b;
+        init[q].amplitude = in[g0 + q].amplitude;
+    }
+    se_fitecho_config_init(&fc);
+    fc.begin = 0;
+    fc.end = len;
+    /* the noise from the window's own residual: the record's sigma may be too low where the
+     * noise is not stationary, and BIC would then fit noise as echoes */
+    fc.sigma = 0.0;
+    {
+        double amax = 0.0;
+        for (q = 0; q < ng; q++)
+            amax = fmax(amax, fabs(in[g0 + q].amplitude));
+        fc.max_echoes = amax > 10.0 * split_thr ? (ng + 2 < 16 ? ng + 2 : 16) : ng;
+    }
+    fc.min_amplitude = isfinite(split_thr) ? split_thr : 0.0;
+    fc.min_separation = 0.25 * hw;
+    if (se_fitecho(mdl, w, len, &fc, init, ng, &fit, &no, NULL, NULL, err) != SE_OK) {
+        free(fit);
+        return err != NULL && err->code == SE_ERR_NOMEM ? SE_ERR_NOMEM : SE_OK;
+    }
+    if (no == 0 || (no == ng && !g->close) || (no > ng && !isfinite(split_thr))) {
+        free(fit);
+        return SE_OK;
+    }
+    {
+        /* Does the model explain the window? The matched filter of the fit's residual must
+         * stay below the detection threshold over the group. When it does not (echoes the
+         * fit cannot place, e.g. a splice and a clamp a fraction of the main lobe apart with
+         * their internal reverberation), the fitted positions are biased far beyond their
+         * covariance: the group is kept but low confidence, its timing widened to the main
+         * lobe (as below the SNR limit) and its amplitudes to what the model misses. */
+        double rmax = 0.0;
+        int mismatch = 0;
+        if (isfinite(split_thr) && len > m) {
+            for (i = 0; i < len; i++) {
+                resid[i] = w[i];
+                for (q = 0; q < no; q++)
+                    resid[i] -= fit[q].amplitude *
+                                se_echo_model_value(mdl, (double)i - fit[q].lag, NULL);
+            }
+            rmax = se_residual_peak(resid, len, jb->ref, m, lo - (double)b - hw,
+                                    hi - (double)b + hw);
+            mismatch = rmax > split_thr;
+        }
+        if (mismatch && (no == 2 || no == 3)) {
+            /* Two interfaces a fraction of the main lobe apart reverberate between each
+             * other: the train g r1, g (1 - r1^2) r2 (-r1 r2)^n follows from the two
+             * primaries alone (se_layerfit), so a third fitted echo may be its first
+             * multiple. Each pair of the fitted echoes is tried as the two interfaces (in
+             * lag order: first, first and third, second and third); the first whose
+             * residual passes the same check is taken. Then only its two primaries are
+             * reported, with their covariance intervals: the internal multiples are not
+             * events, they are explained inside the fit (and so are not passed on to the
+             * multiple labelling either). Otherwise the group stays flagged. */
+            static const size_t pairs[3][2] = {{0, 1}, {0, 2}, {1, 2}};
+            size_t pi;
+            for (pi = 0; pi < (no == 2 ? 1u : 3u) && mismatch; pi++) {
+                se_layerfit_config lc;
+                se_layerfit_result lr;
+                se_error lerr;
+                se_echo two[2];
+                se_status ls;
+                double lmax;
+                two[0] = fit[pairs[pi][0]];
+                two[1] = fit[pairs[pi][1]];
+                se_layerfit_config_init(&lc);
+                lc.begin = 0;
+                lc.end = len;
+                ls = se_layerfit(mdl, w, len, &lc, two, &lr, resid, &lerr);
+                if (ls == SE_ERR_NOMEM) {
+                    if (err != NULL)
+                        *err = lerr;
+                    free(fit);
+                    return SE_ERR_NOMEM;
+                }
+                if (ls != SE_OK)
+                    continue; /* no layered fit from this pair (lerr not passed on) */
+                lmax = se_residual_peak(resid, len, jb->ref, m, lo - (double)b - hw,
+                                        hi - (double)b + hw);
+                if (lmax <= split_thr) {
+                    fit[0] = lr.primary[0];
+                    fit[1] = lr.primary[1];
+                    no = 2;
+                    mismatch = 0;
+                }
+            }
+        }
+        g->fitted = 1;
+        g->echo = fit;
+        g->no = no;
+        g->mismatch = mismatch;
+        g->rmax = rmax;
+    }
+    return SE_OK;
+}
+
+/* Take the next group to fit until none is left or the refit has failed. */
+static void *se_refit_run(void *arg)
+{
+    se_refit_job *jb = arg;
+    size_t m = jb->m;
+    double *w = malloc((4 * m + 8) * sizeof *w), *resid = malloc((4 * m + 8) * sizeof *resid);
+    se_error err;
+    se_error_clear(&err);
+    for (;;) {
+        se_rgroup *g = NULL;
+        se_status st;
+        if (jb->mu != NULL)
+            pthread_mutex_lock(jb->mu);
+        while (jb->st == SE_OK && jb->next < jb->ngr && !jb->gr[jb->next].todo)
+            jb->next++;
+        if (jb->st == SE_OK && jb->next < jb->ngr)
+            g = &jb->gr[jb->next++];
+        if (g != NULL && (w == NULL || resid == NULL)) {
+            jb->st = se_fail(&jb->err, SE_ERR_NOMEM, "refit: cannot allocate a window of %zu samples",
+                             4 * m + 8);
+            g = NULL;
+        }
+        if (jb->mu != NULL)
+            pthread_mutex_unlock(jb->mu);
+        if (g == NULL)
+            break;
+        if ((st = se_refit_group(jb, g, w, resid, &err)) != SE_OK) {
+            if (jb->mu != NULL)
+                pthread_mutex_lock(jb->mu);
+            if (jb->st == SE_OK) {
+                jb->st = st;
+                jb->err = err;
+            }
+            if (jb->mu != NULL)
+                pthread_mutex_unlock(jb->mu);
+            break;
+        }
+    }
+    free(w);
+    free(resid);
+    return NULL;
+}
+
 /* Least squares of groups of overlapping echoes (fitecho.h) on the response x [size: n]. A group
  * is a run of peaks less than one pulse length apart; the other echoes and the direct arrival are
  * subtracted from its window first. The fit replaces CLEAN's estimates when the group holds echoes
@@ -1511,8 +1710,10 @@ static double se_residual_peak(const double *res, size_t len, const double *ref,
  * CLEAN's estimates. A fit whose residual still holds an echo above split_thr is, for 2 or 3
  * echoes, refitted as two layered interfaces with their internal multiples (se_layerfit) and
  * taken when that residual passes; otherwise kept low confidence (intervals widened to the main
- * lobe). *lag_sd, *amp_sd: [size: *npeaks],
- * NaN where CLEAN's estimate was kept. */
+ * lobe). The groups are independent (each window takes out CLEAN's estimates of the others), so
+ * two threads fit them in turn, the reads of x one at a time; the answer is the one thread's.
+ * *mdlp is made (from ref [size: m]) when a group is to be fitted. *lag_sd, *amp_sd:
+ * [size: *npeaks], NaN where CLEAN's estimate was kept. */
 static se_status se_refit_overlaps(const se_sample_reader *x, se_echo_model **mdlp,
                                    const double *ref, size_t m, const se_locate_result *res,
                                    const se_peak *direct,
@@ -1520,177 +1721,107 @@ static se_status se_refit_overlaps(const se_sample_reader *x, se_echo_model **md
                                    double hw, se_peak **peaks, size_t *npeaks, double **lag_sd,
                                    double **amp_sd, se_error *err)
 {
-    size_t np = *npeaks, g0, g1, i, j, nout = 0, cap, n = x->n;
-    se_echo_model *mdl = *mdlp;
+    size_t np = *npeaks, g0, g1, nout = 0, cap, n = x->n, ngr = 0, ntodo = 0, q, k;
     se_peak *in = *peaks, *out = NULL;
-    double *lsd = NULL, *asd = NULL, *w = NULL, *resid = NULL;
-    se_echo init[16];
+    double *lsd = NULL, *asd = NULL;
+    se_rgroup *gr = NULL;
+    se_refit_job jb;
     se_status st = SE_OK;
 
     cap = np + 16;
     out = se_calloc(cap, sizeof *out, "fitted peaks", err);
     lsd = se_calloc(cap, sizeof *lsd, "fitted peaks", err);
     asd = se_calloc(cap, sizeof *asd, "fitted peaks", err);
-    w = se_calloc(4 * m + 8, sizeof *w, "fit window", err);
-    resid = se_calloc(4 * m + 8, sizeof *resid, "fit residual", err);
-    if (out == NULL || lsd == NULL || asd == NULL || w == NULL || resid == NULL) {
+    gr = se_calloc(np > 0 ? np : 1, sizeof *gr, "fitted groups", err);
+    if (out == NULL || lsd == NULL || asd == NULL || gr == NULL) {
         st = SE_ERR_NOMEM;
         goto fail;
     }
+    /* the groups, and which are fitted */
     for (g0 = 0; g0 < np; g0 = g1) {
-        double lo, hi, bb, ee;
-        size_t b, e, len, ng, no = 0, q;
-        int close = 0, keep = 1;
-        se_echo *fit = NULL;
-        se_fitecho_config fc;
-        double split_thr = thr_all;
+        se_rgroup *g = &gr[ngr++];
+        double bb, ee;
+        size_t b, e, ng;
+        g->close = 0;
         for (g1 = g0 + 1; g1 < np && in[g1].lag - in[g1 - 1].lag < (double)m; g1++)
             if (in[g1].lag - in[g1 - 1].lag < 2.0 * hw)
-                close = 1;
+                g->close = 1;
+        g->g0 = g0;
+        g->g1 = g1;
         ng = g1 - g0;
+        g->split_thr = thr_all;
         /* with non-stationary noise the group's own threshold (the larger of its two ends) */
         if (prof != NULL && isfinite(thr_all))
-            split_thr = kthr * fmax(se_noise_profile_sigma(prof, in[g0].lag),
-                                    se_noise_profile_sigma(prof, in[g1 - 1].lag));
+            g->split_thr = kthr * fmax(se_noise_profile_sigma(prof, in[g0].lag),
+                                       se_noise_profile_sigma(prof, in[g1 - 1].lag));
         /* a lone peak is tried for a split only when strong (10 thresholds): near the threshold
          * the noise, not a second echo, decides */
-        if (ng > 8 || (ng == 1 && !(fabs(in[g0].amplitude) > 10.0 * split_thr)))
-            goto keep_clean;
-        lo = in[g0].lag;
-        hi = in[g1 - 1].lag;
-        bb = floor(lo - 0.5 * (double)m);
-        ee = ceil(hi + 1.5 * (double)m);
+        if (ng > 8 || (ng == 1 && !(fabs(in[g0].amplitude) > 10.0 * g->split_thr)))
+            continue;
+        bb = floor(in[g0].lag - 0.5 * (double)m);
+        ee = ceil(in[g1 - 1].lag + 1.5 * (double)m);
         b = bb > 0.0 ? (size_t)bb : 0;
         e = ee < (double)n ? (size_t)ee : n;
-        len = e > b ? e - b : 0;
-        if (len < 16 || len > 4 * m + 8 || se_window_clipped(res, b, len))
-            goto keep_clean; /* a clipped echo does not follow the model */
-        if (mdl == NULL && (mdl = *mdlp = se_echo_model_create(ref, m, err)) == NULL) {
-            st = err ? err->code : SE_ERR_NOMEM;
+        g->b = b;
+        g->len = e > b ? e - b : 0;
+        if (g->len < 16 || g->len > 4 * m + 8 || se_window_clipped(res, b, g->len))
+            continue; /* a clipped echo does not follow the model */
+        g->todo = 1;
+        ntodo++;
+    }
+    if (ntodo > 0 && *mdlp == NULL && (*mdlp = se_echo_model_create(ref, m, err)) == NULL) {
+        st = err ? err->code : SE_ERR_NOMEM;
+        goto fail;
+    }
+    memset(&jb, 0, sizeof jb);
+    jb.x = x;
+    jb.mdl = *mdlp;
+    jb.ref = ref;
+    jb.in = in;
+    jb.direct = direct;
+    jb.np = np;
+    jb.m = m;
+    jb.hw = hw;
+    jb.gr = gr;
+    jb.ngr = ngr;
+    jb.st = SE_OK;
+    if (ntodo > 0) {
+        pthread_mutex_t mu;
+        pthread_t tid;
+        int started = 0;
+        if (ntodo > 1 && pthread_mutex_init(&mu, NULL) == 0) {
+            jb.mu = &mu;
+            started = pthread_create(&tid, NULL, se_refit_run, &jb) == 0;
+        }
+        se_refit_run(&jb);
+        if (started)
+            pthread_join(tid, NULL);
+        if (jb.mu != NULL)
+            pthread_mutex_destroy(&mu);
+        jb.mu = NULL;
+        if (jb.st != SE_OK) {
+            st = jb.st;
+            if (err != NULL)
+                *err = jb.err;
             goto fail;
         }
-        /* the window with every other echo (and the direct arrival) taken out */
-        if ((st = x->read(x->ctx, b, len, w, err)) != SE_OK)
-            goto fail;
-        for (j = 0; j <= np; j++) {
-            const se_peak *o = j < np ? &in[j] : direct;
-            if (j >= g0 && j < g1)
-                continue;
-            if (o->lag + (double)m + 2.0 < (double)b || o->lag - 2.0 > (double)e)
-                continue;
-            for (i = 0; i < len; i++)
-                w[i] -= o->amplitude * se_echo_model_value(mdl, (double)(b + i) - o->lag, NULL);
-        }
-        for (q = 0; q < ng; q++) {
-            init[q].lag = in[g0 + q].lag - (double)b;
-            init[q].amplitude = in[g0 + q].amplitude;
-        }
-        se_fitecho_config_init(&fc);
-        fc.begin = 0;
-        fc.end = len;
-        /* the noise from the window's own residual: the record's sigma may be too low where the
-         * noise is not stationary, and BIC would then fit noise as echoes */
-        fc.sigma = 0.0;
-        {
-            double amax = 0.0;
-            for (q = 0; q < ng; q++)
-                amax = fmax(amax, fabs(in[g0 + q].amplitude));
-            fc.max_echoes = amax > 10.0 * split_thr ? (ng + 2 < 16 ? ng + 2 : 16) : ng;
-        }
-        fc.min_amplitude = isfinite(split_thr) ? split_thr : 0.0;
-        fc.min_separation = 0.25 * hw;
-        if (se_fitecho(mdl, w, len, &fc, init, ng, &fit, &no, NULL, NULL, err) != SE_OK) {
-            free(fit);
-            if (err != NULL && err->code == SE_ERR_NOMEM) {
-                st = SE_ERR_NOMEM;
-                goto fail;
-            }
-            goto keep_clean; /* a fit that fails leaves CLEAN's estimates */
-        }
-        if (no == 0 || (no == ng && !close) || (no > ng && !isfinite(split_thr)))
-            keep = 0;
-        if (keep) {
-            /* Does the model explain the window? The matched filter of the fit's residual must
-             * stay below the detection threshold over the group. When it does not (echoes the
-             * fit cannot place, e.g. a splice and a clamp a fraction of the main lobe apart with
-             * their internal reverberation), the fitted positions are biased far beyond their
-             * covariance: the group is kept but low confidence, its timing widened to the main
-             * lobe (as below the SNR limit) and its amplitudes to what the model misses. */
-            double rmax = 0.0;
-            int mismatch = 0;
-            if (isfinite(split_thr) && len > m) {
-                for (i = 0; i < len; i++) {
-                    resid[i] = w[i];
-                    for (q = 0; q < no; q++)
-                        resid[i] -= fit[q].amplitude *
-                                    se_echo_model_value(mdl, (double)i - fit[q].lag, NULL);
-                }
-                rmax = se_residual_peak(resid, len, ref, m, lo - (double)b - hw,
-                                        hi - (double)b + hw);
-                mismatch = rmax > split_thr;
-            }
-            if (mismatch && (no == 2 || no == 3)) {
-                /* Two interfaces a fraction of the main lobe apart reverberate between each
-                 * other: the train g r1, g (1 - r1^2) r2 (-r1 r2)^n follows from the two
-                 * primaries alone (se_layerfit), so a third fitted echo may be its first
-                 * multiple. Each pair of the fitted echoes is tried as the two interfaces (in
-                 * lag order: first, first and third, second and third); the first whose
-                 * residual passes the same check is taken. Then only its two primaries are
-                 * reported, with their covariance intervals: the internal multiples are not
-                 * events, they are explained inside the fit (and so are not passed on to the
-                 * multiple labelling either). Otherwise the group stays flagged. */
-                static const size_t pairs[3][2] = {{0, 1}, {0, 2}, {1, 2}};
-                size_t pi;
-                for (pi = 0; pi < (no == 2 ? 1u : 3u) && mismatch; pi++) {
-                    se_layerfit_config lc;
-                    se_layerfit_result lr;
-                    se_error lerr;
-                    se_echo two[2];
-                    se_status ls;
-                    double lmax;
-                    two[0] = fit[pairs[pi][0]];
-                    two[1] = fit[pairs[pi][1]];
-                    se_layerfit_config_init(&lc);
-                    lc.begin = 0;
-                    lc.end = len;
-                    ls = se_layerfit(mdl, w, len, &lc, two, &lr, resid, &lerr);
-                    if (ls == SE_ERR_NOMEM) {
-                        if (err != NULL)
-                            *err = lerr;
-                        free(fit);
-                        st = SE_ERR_NOMEM;
-                        goto fail;
-                    }
-                    if (ls != SE_OK)
-                        continue; /* no layered fit from this pair (lerr not passed on) */
-                    lmax = se_residual_peak(resid, len, ref, m, lo - (double)b - hw,
-                                            hi - (double)b + hw);
-                    if (lmax <= split_thr) {
-                        fit[0] = lr.primary[0];
-                        fit[1] = lr.primary[1];
-                        no = 2;
-                        mismatch = 0;
-                    }
-                }
-            }
-            if (nout + no > cap) {
-                free(fit);
-                goto keep_clean;
-            }
-            for (q = 0; q < no; q++) {
-                out[nout].lag = fit[q].lag + (double)b;
-                out[nout].amplitude = fit[q].amplitude;
+    }
+    /* in group order: the fitted echoes, or CLEAN's */
+    for (k = 0; k < ngr; k++) {
+        se_rgroup *g = &gr[k];
+        if (g->fitted && nout + g->no <= cap) {
+            for (q = 0; q < g->no; q++) {
+                out[nout].lag = g->echo[q].lag + (double)g->b;
+                out[nout].amplitude = g->echo[q].amplitude;
                 out[nout].index = (size_t)floor(out[nout].lag + 0.5);
-                lsd[nout] = mismatch ? fmax(fit[q].lag_sd, hw) : fit[q].lag_sd;
-                asd[nout] = mismatch ? fmax(fit[q].amplitude_sd, rmax) : fit[q].amplitude_sd;
+                lsd[nout] = g->mismatch ? fmax(g->echo[q].lag_sd, hw) : g->echo[q].lag_sd;
+                asd[nout] = g->mismatch ? fmax(g->echo[q].amplitude_sd, g->rmax)
+                                        : g->echo[q].amplitude_sd;
                 nout++;
             }
-            free(fit);
             continue;
         }
-        free(fit);
-    keep_clean:
-        for (q = g0; q < g1; q++) {
+        for (q = g->g0; q < g->g1; q++) {
             if (nout == cap)
                 break;
             out[nout] = in[q];
@@ -1698,8 +1829,9 @@ static se_status se_refit_overlaps(const se_sample_reader *x, se_echo_model **md
             nout++;
         }
     }
-    free(w);
-    free(resid);
+    for (k = 0; k < ngr; k++)
+        free(gr[k].echo);
+    free(gr);
     free(*peaks);
     *peaks = out;
     *npeaks = nout;
@@ -1707,11 +1839,12 @@ static se_status se_refit_overlaps(const se_sample_reader *x, se_echo_model **md
     *amp_sd = asd;
     return SE_OK;
 fail:
+    for (k = 0; gr != NULL && k < ngr; k++)
+        free(gr[k].echo);
+    free(gr);
     free(out);
     free(lsd);
     free(asd);
-    free(w);
-    free(resid);
     return st;
 }
 
