@@ -79,6 +79,11 @@ typedef struct se_locate_stage {
      * stationary; else each event's SNR and amplitude uncertainty use the level at its lag, and
      * the result reports noise_varies with the profile's extremes. */
     const struct se_noise_profile *profile;
+    /* Repeated shots stacked (NULL otherwise): prev_weight[k], k = 1 .. n_prev_weight - 1, is
+     * the weight of the echoes of the tap k before in the stack, the share of the stacked shots
+     * that have k taps before them (a first tap left out of the stack has none after it). */
+    const double *prev_weight;
+    size_t n_prev_weight;
 } se_locate_stage;
 se_status se_locate_events(const se_locate_stage *sg, const struct se_peak *peaks, size_t npeaks,
                            struct se_locate_result *res, se_error *err);

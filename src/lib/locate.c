@@ -44,7 +44,8 @@ static int se_window_clipped(const se_locate_result *res, size_t start, size_t m
 #define SE_FIT_MAX_PULSE 4096
 static se_status se_locate_stack(double **x, size_t *n, const double *pulse, size_t m,
                                  const se_locate_config *cfg, double rate_hz,
-                                 se_locate_result *res, size_t *pre, int *stacked, se_error *err);
+                                 se_locate_result *res, size_t *pre, int *stacked,
+                                 double **prev_w, se_error *err);
 static se_status se_refit_overlaps(const se_sample_reader *x, se_echo_model **mdlp,
                                    const double *ref, size_t m, const se_locate_result *res,
                                    const se_peak *direct,
@@ -320,7 +321,7 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
     int rs_unknown;
     se_noise_profile prof;
     int varies = 0, skin = 0;
-    double *skin_sd = NULL, *plain_lag = NULL;
+    double *skin_sd = NULL, *plain_lag = NULL, *prev_w = NULL;
 
     memset(&prof, 0, sizeof prof);
     if (res == NULL)
@@ -417,7 +418,7 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
     if ((cfg->stacking != SE_STACKING_OFF || cfg->given_stack != NULL) && m < n) {
         size_t pre = 0;
         int stacked = 0;
-        st = se_locate_stack(&x, &n, ref, m, cfg, rate_hz, res, &pre, &stacked, err);
+        st = se_locate_stack(&x, &n, ref, m, cfg, rate_hz, res, &pre, &stacked, &prev_w, err);
         if (st != SE_OK)
             goto done;
         if (stacked) {
@@ -609,6 +610,8 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
         sg.beta_crb = beta_crb;
         sg.mainlobe_half_width = se_acf_mainlobe_half_width(acf);
         sg.profile = varies ? &prof : NULL;
+        sg.prev_weight = prev_w;
+        sg.n_prev_weight = prev_w != NULL ? res->shots_found : 0;
         rd.read = se_read_array;
         rd.ctx = x;
         rd.n = n;
@@ -629,6 +632,7 @@ se_status se_locate(const double *response, size_t n, double rate_hz, const se_l
     }
 
 done:
+    free(prev_w);
     se_noise_profile_free(&prof);
     free(skin_sd);
     free(plain_lag);
@@ -886,13 +890,13 @@ static double se_lbl_at(const se_lbl_field *f, double t, double shift, double hw
 }
 
 /* The field of model f at t (own: shift 0, the model's primaries tp[np] left out) plus the
- * previous taps' (shifts k I, weights (N - k) / N); *s_own, *s_prev get the summed magnitudes,
- * *kbest the tap that contributes most. */
+ * previous taps' (shifts k I, k < nshots, weights pw[k], or (N - k) / N when pw is NULL: every
+ * tap stacked); *s_own, *s_prev get the summed magnitudes, *kbest the tap that contributes most. */
 static void se_lbl_fields(const se_lbl_field *own, const se_lbl_field *prev, double t,
                           double hw_s, double beta, const double *tp, size_t np, double cell,
-                          const se_event *ev, size_t nev, size_t nshots, double interval,
-                          double *p_own, double *s_own, double *p_prev, double *s_prev,
-                          int *kbest)
+                          const se_event *ev, size_t nev, size_t nshots, const double *pw,
+                          double interval, double *p_own, double *s_own, double *p_prev,
+                          double *s_prev, int *kbest)
 {
     size_t k;
     double best = 0.0;
@@ -902,7 +906,7 @@ static void se_lbl_fields(const se_lbl_field *own, const se_lbl_field *prev, dou
     for (k = 1; k < nshots && prev != NULL && prev->n > 0; k++) {
         double s1, p1 = se_lbl_at(prev, t, (double)k * interval, hw_s, beta, tp, 0, cell, ev, nev,
                                   &s1);
-        double wk = (double)(nshots - k) / (double)nshots;
+        double wk = pw != NULL ? pw[k] : (double)(nshots - k) / (double)nshots;
         *p_prev += wk * p1;
         *s_prev += wk * s1;
         if (wk * s1 > best) {
@@ -920,9 +924,12 @@ static se_status se_label_multiples(se_event *ev, size_t n, const se_locate_stag
     const double cell = 1.0 / (rate * SE_LBL_Q);
     const double thr = sg->thr / fabs(sg->a0) / fabs(1.0 + rs);
     const double horizon = (double)(sg->end - 1 - sg->k0) / rate + hw_s;
-    const size_t nshots = res->shots_used;
+    /* the taps before each stacked shot: up to the first found (sg->prev_weight), else as if
+     * every tap were stacked */
+    const double *pw = sg->prev_weight;
+    const size_t nshots = pw != NULL ? sg->n_prev_weight : res->shots_used;
     const double interval = res->shot_interval_s;
-    const int taps = nshots >= 2 && interval > 0.0;
+    const int taps = res->shots_used >= 2 && nshots >= 2 && interval > 0.0;
     double *tp = NULL, *ap, *rd;
     size_t e, i, j, k, np = 0, full = SIZE_MAX;
     se_lbl_field own = {NULL, 0}, prev = {NULL, 0};
@@ -957,7 +964,7 @@ static se_status se_label_multiples(se_event *ev, size_t n, const se_locate_stag
                     best = i;
             taken[best] = 1;
             se_lbl_fields(&prev, &prev, ev[best].delay_s, hw_s, beta, tp, np, cell, ev, n,
-                          nshots, interval, &po, &so, &pp, &spp, &kb);
+                          nshots, pw, interval, &po, &so, &pp, &spp, &kb);
             tot = po + pp;
             if ((so + spp > 0.0 && fabs(ev[best].reflection - tot) <=
                                        3.0 * ev[best].reflection_uncertainty + 0.3 * so +
@@ -989,7 +996,7 @@ static se_status se_label_multiples(se_event *ev, size_t n, const se_locate_stag
         double te = ev[e].delay_s, ae = ev[e].reflection, sa = ev[e].reflection_uncertainty;
         double p_own, s_own, p_prev, s_prev, tot, sp;
         int kprev;
-        se_lbl_fields(&own, taps ? &prev : NULL, te, hw_s, beta, tp, np, cell, ev, n, nshots,
+        se_lbl_fields(&own, taps ? &prev : NULL, te, hw_s, beta, tp, np, cell, ev, n, nshots, pw,
                       interval, &p_own, &s_own, &p_prev, &s_prev, &kprev);
         tot = p_own + p_prev;
         sp = s_own + s_prev;
@@ -1378,6 +1385,27 @@ se_status se_locate_events(const se_locate_stage *sg, const se_peak *peaks, size
     return SE_OK;
 }
 
+/* The weights of the previous taps' echoes in the mean stack of the shots marked used in
+ * status [size: nf] (in onset order): w[k] = the share of used shots with at least k taps before
+ * them, k = 1 .. nf - 1 (w[0] = 1). NULL on allocation failure. */
+static double *se_prev_weights(const se_shot_status *status, size_t nf, se_error *err)
+{
+    double *w = se_calloc(nf > 0 ? nf : 1, sizeof *w, "stack weights", err);
+    size_t i, k, nu = 0;
+    if (w == NULL)
+        return NULL;
+    for (i = 0; i < nf; i++)
+        nu += status[i] == SE_SHOT_USED;
+    w[0] = 1.0;
+    for (k = 1; k < nf && nu > 0; k++) {
+        size_t c = 0;
+        for (i = k; i < nf; i++)
+            c += status[i] == SE_SHOT_USED;
+        w[k] = (double)c / (double)nu;
+    }
+    return w;
+}
+
 /* Repeated shots: stack the recording in *x [size: *n] when it holds several (stack.h). With a
  * pilot two shots suffice; on the response's own direct arrivals three consistent ones must be
  * found and used (two equal arrivals may be a full reflection). On success with a stack, *x and *n are replaced
@@ -1388,7 +1416,8 @@ se_status se_locate_events(const se_locate_stage *sg, const se_peak *peaks, size
  * times the shortest). */
 static se_status se_locate_stack(double **x, size_t *n, const double *pulse, size_t m,
                                  const se_locate_config *cfg, double rate_hz,
-                                 se_locate_result *res, size_t *pre, int *stacked, se_error *err)
+                                 se_locate_result *res, size_t *pre, int *stacked,
+                                 double **prev_w, se_error *err)
 {
     se_stack_config sc;
     se_stack_result sr;
@@ -1400,6 +1429,8 @@ static se_status se_locate_stack(double **x, size_t *n, const double *pulse, siz
          * below from a pilot, so only the report and the time origin follow */
         const se_stack_result *g = cfg->given_stack;
         if (g->n_found >= 2 && g->n_used >= 2) {
+            if (g->status != NULL && (*prev_w = se_prev_weights(g->status, g->n_found, err)) == NULL)
+                return SE_ERR_NOMEM;
             *pre = g->pre;
             res->shots_found = g->n_found;
             res->shots_used = g->n_used;
@@ -1446,6 +1477,10 @@ static se_status se_locate_stack(double **x, size_t *n, const double *pulse, siz
             sr.n_found = 1;
     }
     if (sr.n_found >= need && sr.n_used >= need && sr.stacked != NULL) {
+        if ((*prev_w = se_prev_weights(sr.status, sr.n_found, err)) == NULL) {
+            se_stack_result_free(&sr);
+            return SE_ERR_NOMEM;
+        }
         free(*x);
         *x = sr.stacked;
         *n = sr.length;

@@ -2198,6 +2198,7 @@ static se_status se_stream_stack(se_src *src_in, size_t n, int pilot_ch, const s
     given.pre = pre;
     given.length = len;
     given.onsets = sr.onsets;
+    given.status = sr.status; /* which taps ring into the stack (se_locate's labels) */
     given.gain_db = sr.gain_db;
     given.expected_gain_db = sr.expected_gain_db;
     given.noise_single = sr.noise_single;
