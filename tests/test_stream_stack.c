@@ -17,6 +17,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <stdint.h>
 #include <sys/resource.h>
 #include <sys/types.h>
 #include <sys/wait.h>
@@ -383,6 +384,64 @@ static void tk_big(void)
     remove(path);
 }
 
+/* Taps without a pulse channel: se_locate stacks on the response's own direct arrivals (three
+ * in a rhythm), and so does the stream, after its one engine pass said three can be there; with
+ * the pulse's start known (time base) and without it. A single tap: the stream makes no pass
+ * beyond the engine's. The reference is the pulse channel's support, given as a file pulse. */
+static void tk_response(const char *name, const tk_case *c, int time_base, size_t want_used)
+{
+    char path[256];
+    size_t pw = 0, b, e, i;
+    se_error err;
+    se_recording *rec;
+    se_locate_config cfg;
+    se_stream_config sc;
+    se_locate_result whole, str;
+    se_stream_info info;
+    double *ref = NULL;
+    snprintf(path, sizeof path, "test_stream_stack_%s.wav", name);
+    memset(&whole, 0, sizeof whole);
+    memset(&str, 0, sizeof str);
+    if (!tk_write(path, c, &pw) || !CHECK((rec = se_recording_read(path, NULL, &err)) != NULL))
+        return;
+    if (CHECK(se_pulse_support(se_recording_channel(rec, 1), pw, &b, &e, &err) == SE_OK) &&
+        CHECK((ref = malloc((e - b) * sizeof *ref)) != NULL)) {
+        memcpy(ref, se_recording_channel(rec, 1) + b, (e - b) * sizeof *ref);
+        tk_config(&cfg, SE_STACKING_AUTO);
+        cfg.source_reflection = c->rs;
+        cfg.reference = ref;
+        cfg.reference_length = e - b;
+        cfg.reference_offset = time_base ? b : SIZE_MAX;
+        cfg.reference_kind = SE_REF_FILE;
+        if (CHECK(se_locate(se_recording_channel(rec, 0), rec->frames, rec->rate, &cfg, &whole,
+                            &err) == SE_OK)) {
+            se_stream_config_init(&sc);
+            sc.block = 1;
+            if (CHECK(se_locate_stream(path, &cfg, &sc, &str, &info, &err) == SE_OK)) {
+                printf("%s: %zu shots found, %zu used whole, %zu and %zu streamed; %u passes, %u "
+                       "other reads; %zu events\n",
+                       name, whole.shots_found, whole.shots_used, str.shots_found, str.shots_used,
+                       info.passes, info.stack_reads, str.n_events);
+                CHECK(whole.shots_used == want_used);
+                tk_compare(&whole, &str, name);
+                for (i = 0; i < whole.n_events && i < str.n_events; i++)
+                    CHECK(str.events[i].lag_samples == whole.events[i].lag_samples);
+                if (want_used == 1) /* the screen held: the engine's pass alone (and pass 0) */
+                    CHECK(info.stack_reads == 0 && info.passes == (time_base ? 1u : 2u));
+            } else {
+                printf("  %s: %s\n", name, err.message);
+            }
+        } else {
+            printf("  %s: se_locate: %s\n", name, err.message);
+        }
+    }
+    free(ref);
+    se_locate_result_free(&whole);
+    se_locate_result_free(&str);
+    se_recording_free(rec);
+    remove(path);
+}
+
 int main(void)
 {
     /* taps 3 s apart on a line that rings for longer (end fixed at 100 m, source end +0.8) */
@@ -400,5 +459,14 @@ int main(void)
     tk_run("trimmed", &outl, SE_STACKING_ROBUST, 8, 2);
     tk_run("pair", &pair, SE_STACKING_AUTO, 2, 1);
     tk_single();
+    {
+        /* four taps 4 s apart, end -0.5 (the direct arrival stays the largest |r|), and one */
+        const tk_case four = {-0.5, 0.3, 16.0, 4.0, 0.01, 4, -1.0, 1.0};
+        const tk_case one = {-0.5, 0.3, 4.0, 4.0, 0.01, 1, -1.0, 1.0};
+        tk_response("response", &four, 1, 4);
+        tk_response("response_no_time_base", &four, 0, 4);
+        tk_response("response_single", &one, 1, 1);
+        tk_response("response_single_no_time_base", &one, 0, 1);
+    }
     return se_test_done("stream_stack");
 }

@@ -35,8 +35,12 @@
  * their multiple / previous-shot labels are se_locate's (the stack within rounding of se_locate's
  * own: the same operations in the same order, so bit for bit in the tests). When several shots
  * are found but fewer than two are usable, se_locate runs on the one usable (or first) shot's
- * segment, as se_locate does. Without a pulse channel repeated shots are not stacked (se_locate
- * would stack on the response's direct arrivals): the record is located as a single shot.
+ * segment, as se_locate does. Without a pulse channel se_locate stacks on the response's own
+ * direct arrivals (three in a rhythm, stack.h); the stream does the same after its engine pass,
+ * which shows whether three can be there (clusters reaching half the direct arrival's |r|, or
+ * always with the profile pass of non-stationary noise): only then does it search the response
+ * for the shots in passes of its own, as above with the response as the trigger channel, and
+ * locate on the stack (else the single shot's pass stands, no extra pass made).
  * Memory for repeated shots: stack_memory (default 256 MiB) for the aligned segments, plus the
  * stack, its alternating mean, an interval of scratch for one alignment and its FFT (2 P doubles,
  * P the power of two above the interval + 128), 2^18 lags around one trigger at a time, and
@@ -131,8 +135,8 @@ void se_stream_config_init(se_stream_config *scfg);
  *  info : may be NULL
  * The answer can differ from se_locate's only (1) when more than cfg->max_events peaks pass the
  * threshold (the streaming run keeps the largest, CLEAN on the whole record the first found),
- * (2) with a pulse channel longer than pulse_window (se_pulse_support then sees a prefix),
- * and (3) for repeated shots without a pulse channel (not stacked here). CLEAN on a window of r
+ * and (2) with a pulse channel longer than pulse_window (se_pulse_support then sees a prefix).
+ * CLEAN on a window of r
  * works on record lags (se_detect_config.origin), so even the weak echoes of an overlapping
  * reverberation train come out as on the whole record, bit for bit. With a pulse channel,
  * se_locate is the run with cfg->pilot = that channel; a record of repeated shots is stacked as

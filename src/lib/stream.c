@@ -152,6 +152,7 @@ static se_status se_stream_stack(se_src *src, size_t n, int pilot_ch, const se_l
                                  int *stacked, se_stream_info *info, se_error *err);
 static void *se_wjob_fetch(void *arg);
 static int se_peak_by_size(const void *a, const void *b);
+static int se_sl_shots_possible(const se_sl *s, double a0);
 static int se_peak_by_lag(const void *a, const void *b);
 static se_status se_sl_noise_blocks(se_sl *s, size_t i0, const double *v, size_t lo, size_t hi,
                                     se_error *err);
@@ -162,6 +163,23 @@ static void se_sl_scan_profile(se_sl *s, size_t i0, const double *v, size_t a, s
                                se_status *st, se_error *err);
 static se_status se_window_profile(const se_noise_profile *p, size_t a, size_t e, size_t *a_out,
                                    se_noise_profile *out, se_error *err);
+
+/* Whether the response may hold the three shots se_locate stacks on the response's own direct
+ * arrivals, from what the pass kept: a shot's trigger reaches half the largest |r| (se_shot_finder,
+ * stack.h), which is at least |r| at the direct arrival, so every shot after it lies in a cluster
+ * whose largest |r| reaches half of that (0.45 |a0| here, a0 being the refined peak), and a
+ * cluster of extent E holds at most E / min_interval + 1 of them (min_interval 4 m). Clusters of
+ * the profile pass keep |r| relative to each lag's threshold: then always possible. */
+static int se_sl_shots_possible(const se_sl *s, double a0)
+{
+    size_t i, can = 1; /* the direct arrival */
+    if (s->pprof != NULL)
+        return 1;
+    for (i = 0; i < s->nwins; i++)
+        if (s->wins[i].cmax >= 0.45 * fabs(a0))
+            can += (s->wins[i].cand_last - s->wins[i].cand_first) / (4 * s->m) + 1;
+    return can >= 3;
+}
 
 static int se_peak_by_size(const void *a, const void *b)
 {
@@ -1392,8 +1410,9 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
         goto done;
     }
     memcpy(ref, cfg.reference, m * sizeof *ref);
-    /* Repeated shots: found and stacked in passes of their own, then located on the stack. */
-    if (cfg.stacking != SE_STACKING_OFF) {
+    /* Repeated shots on a pulse channel: found and stacked in passes of their own, then located
+     * on the stack (on the response's own direct arrivals: after the engine's pass, below). */
+    if (cfg.stacking != SE_STACKING_OFF && scfg.pulse_channel != SE_STREAM_NO_CHANNEL) {
         int stacked = 0;
         st = se_stream_stack(&src, n, scfg.pulse_channel, &cfg, info->rate, scfg.block,
                              scfg.stack_memory, res, &stacked, info, err);
@@ -1561,6 +1580,20 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
                      "%.3g, threshold %.3g): wrong channel or wrong reference?",
                      fabs(a0), thr);
         goto done;
+    }
+    /* Repeated shots without a pulse channel: se_locate stacks on the response's own direct
+     * arrivals (three in a rhythm). The pass just made says whether the record can hold three;
+     * only then are they searched for, in passes of their own, and located on the stack. */
+    if (cfg.stacking != SE_STACKING_OFF && scfg.pulse_channel == SE_STREAM_NO_CHANNEL &&
+        se_sl_shots_possible(&s, a0)) {
+        int stacked = 0, floored = res->noise_floored;
+        se_locate_result keep = *res; /* the clipping and noise fields of this pass */
+        st = se_stream_stack(&src, n, SE_STREAM_NO_CHANNEL, &cfg, info->rate, scfg.block,
+                             scfg.stack_memory, res, &stacked, info, err);
+        if (st != SE_OK || stacked)
+            goto done;
+        *res = keep;
+        res->noise_floored = floored;
     }
     {
         double level = 0.5 * thr / fabs(a0);
@@ -1840,8 +1873,8 @@ static se_status se_stream_stack(se_src *src_in, size_t n, int pilot_ch, const s
     memset(&sr, 0, sizeof sr);
     tsrc.ch = tch;
     rsrc.ch = rch;
-    if (!have_pilot || m < 3 || m >= n)
-        return SE_OK; /* not stacked on the stream (stream.h); se_locate does not stack then */
+    if (m < 3 || m >= n)
+        return SE_OK; /* se_locate does not stack then */
     if (budget == 0)
         budget = SE_STREAM_STACK_MEMORY;
     se_stack_config_init(&sc);
@@ -1868,8 +1901,10 @@ static se_status se_stream_stack(se_src *src_in, size_t n, int pilot_ch, const s
     /* Pass 0, cheap: |r[k]| <= sqrt(E_x(k) / E_s) (Cauchy-Schwarz, E_x(k) the pilot's energy over
      * [k, k + m)), and the largest |r| is at least r at the reference's own start, 1. When every
      * lag where that bound reaches 0.9 of the trigger level lies within less than min_interval of
-     * the others, the search cannot find two shots: the record is located as a single shot. */
-    {
+     * the others, the search cannot find two shots: the record is located as a single shot.
+     * Triggers on the response itself have no such floor: the caller screened them on the
+     * engine's own pass (se_sl_shots_possible). */
+    if (have_pilot) {
         double es = 0.0, thr, frac = 0.5, e = 0.0, fx;
         size_t pos = 0, kmin = SIZE_MAX, kmax = 0, hi = n - m + 1, ri = 0;
         double *ring = malloc(m * sizeof *ring);
@@ -1986,8 +2021,8 @@ static se_status se_stream_stack(se_src *src_in, size_t n, int pilot_ch, const s
     }
     if (st != SE_OK)
         goto done;
-    if (k < 2)
-        goto done;
+    if (k < (have_pilot ? 2u : 3u))
+        goto done; /* on the response three shots are needed (se_locate's rule) */
 
     /* Refinement of each trigger on its recomputed neighbourhood. */
     sr.n_found = k;
@@ -2015,6 +2050,16 @@ static se_status se_stream_stack(se_src *src_in, size_t n, int pilot_ch, const s
         st = se_refine_peak(win - c, e, idx[i], 0, &sr.onsets[i], &sr.amplitudes[i], err);
         free(win);
         if (st != SE_OK)
+            goto done;
+    }
+    if (!have_pilot) {
+        /* on the response, shots come in a rhythm: glitches and echoes do not (se_locate) */
+        double lo = INFINITY, hi = 0.0;
+        for (i = 1; i < k; i++) {
+            lo = fmin(lo, sr.onsets[i] - sr.onsets[i - 1]);
+            hi = fmax(hi, sr.onsets[i] - sr.onsets[i - 1]);
+        }
+        if (hi > 1.5 * lo)
             goto done;
     }
     if ((st = se_stack_layout(sr.onsets, k, n, sc.pre, m, &pre, &len, err)) != SE_OK)
@@ -2138,6 +2183,8 @@ static se_status se_stream_stack(se_src *src_in, size_t n, int pilot_ch, const s
         sr.first_used = first == SIZE_MAX ? 0 : first;
         sr.pre = pre;
         sr.length = len;
+        if (!have_pilot && nu < 3)
+            goto done; /* not stacked, and no cut to one shot either: se_locate's rule */
         if (nu >= 2) {
             if ((st = se_stack_acc_init(&acc, sr.status, k, len, sc.mode, err)) != SE_OK)
                 goto done;
