@@ -33,6 +33,7 @@ static void test_nonfinite(void);
 static void test_size_limit(void);
 static void test_write_errors(void);
 static void test_misc(void);
+static void test_probe(void);
 static se_recording *read_through_fifo(const unsigned char *bytes, size_t n, se_error *err);
 static void test_fifo(void);
 
@@ -649,6 +650,46 @@ static void test_fifo(void)
     remove("fifo_src.wav");
 }
 
+/* The header alone (se_recording_probe): what se_recording_read says of the file, no samples;
+ * text tables, missing files and directories refused with their names. */
+static void test_probe(void)
+{
+    enum { C = 3, F = 257 };
+    short v[C * F];
+    se_error err;
+    se_recording *rec, *hdr;
+    size_t i;
+    FILE *f;
+    for (i = 0; i < C * F; i++)
+        v[i] = (short)(i % 1000);
+    CHECK(write_sf_short("probe.flac", SF_FORMAT_FLAC | SF_FORMAT_PCM_16, C, v, F) == 0);
+    rec = se_recording_read("probe.flac", NULL, &err);
+    hdr = se_recording_probe("probe.flac", &err);
+    if (CHECK(rec != NULL && hdr != NULL)) {
+        CHECK(hdr->frames == rec->frames && hdr->channels == rec->channels &&
+              hdr->rate == rec->rate && hdr->data == NULL);
+        CHECK(strcmp(hdr->format, rec->format) == 0 && strcmp(hdr->path, "probe.flac") == 0);
+    }
+    se_recording_free(rec);
+    se_recording_free(hdr);
+    remove("probe.flac");
+    f = fopen("probe.csv", "w");
+    if (CHECK(f != NULL)) {
+        fputs("0,1\n0.001,2\n0.002,3\n", f);
+        fclose(f);
+        CHECK(se_recording_probe("probe.csv", &err) == NULL && err.code == SE_ERR_FORMAT &&
+              strstr(err.message, "probe.csv") != NULL);
+        rename("probe.csv", "probe.dat"); /* text by its content */
+        CHECK(se_recording_probe("probe.dat", &err) == NULL && err.code == SE_ERR_FORMAT &&
+              strstr(err.message, "text table") != NULL);
+        remove("probe.dat");
+    }
+    CHECK(se_recording_probe("no-such-file.wav", &err) == NULL && err.code == SE_ERR_IO &&
+          strstr(err.message, "no-such-file.wav") != NULL);
+    CHECK(se_recording_probe(".", &err) == NULL && err.code == SE_ERR_IO);
+    CHECK(se_recording_probe(NULL, &err) == NULL && err.code == SE_ERR_ARG);
+}
+
 int main(void)
 {
     test_round_trips();
@@ -661,6 +702,7 @@ int main(void)
     test_size_limit();
     test_write_errors();
     test_misc();
+    test_probe();
     test_fifo();
     return se_test_done("test_recording");
 }

@@ -54,6 +54,13 @@ typedef struct se_read_options {
  *  SE_ERR_NOMEM  over opt->max_bytes, or allocation failed */
 se_recording *se_recording_read(const char *path, const se_read_options *opt, se_error *err);
 
+/* The header of a sound file without its samples, for a recording streamed in blocks (stream.h):
+ * frames, channels, rate, format and path set, data NULL. Text tables (by name or content) are
+ * not probed: SE_ERR_FORMAT, as they are read whole. Errors as se_recording_read's for the
+ * header: SE_ERR_ARG (NULL path), SE_ERR_IO, SE_ERR_FORMAT, SE_ERR_DATA (zero frames),
+ * SE_ERR_NOMEM. Free with se_recording_free. */
+se_recording *se_recording_probe(const char *path, se_error *err);
+
 /* Read a text table regardless of the file name. Format:
  *  - delimiter detected on the first data row: tab, else semicolon, else comma, else whitespace
  *    (runs of spaces/tabs); fields may carry surrounding spaces and double quotes;

@@ -70,8 +70,9 @@ static const char se_locate_usage[] =
     "Output:\n"
     "  --json PATH              write the result as JSON (- for standard output)\n"
     "  --memory-limit MIB       largest recording read whole, MiB of samples as doubles (default\n"
-    "                           2048); a larger one is streamed in blocks (needs --pulse-channel),\n"
-    "                           its repeated taps stacked within this limit (at most 256 MiB)\n"
+    "                           2048); a larger one is streamed in blocks (needs --pulse-channel or\n"
+    "                           --pulse), its repeated taps stacked within this limit (at most\n"
+    "                           256 MiB)\n"
     "  --stream                 stream the recording in blocks even when it fits in memory\n"
     "  --plot FILE              the reflectogram: .png, .svg or .pdf by the extension\n"
     "  --plot-size WxH          plot size, pixels (PNG) or points (SVG, PDF) (default 1200x700)\n"
@@ -367,8 +368,8 @@ int se_cmd_locate(int argc, char **argv)
         se_read_options ropt;
         ropt.max_bytes = (size_t)mem_mib << 20;
         rec = se_recording_read(path, &ropt, &err);
-        if (rec == NULL && err.code == SE_ERR_NOMEM && pulse_channel > 0 && plot == NULL &&
-            report == NULL && cfg.skin_k_s05_per_m == 0.0) {
+        if (rec == NULL && err.code == SE_ERR_NOMEM && (pulse_channel > 0 || pulse != NULL) &&
+            plot == NULL && report == NULL && cfg.skin_k_s05_per_m == 0.0) {
             stream = 1; /* larger than the limit: read it in blocks instead */
             if (!c.quiet)
                 fprintf(stderr, "strandecho: note: %s is over the %lu MiB memory limit: streaming it\n",
@@ -381,9 +382,11 @@ int se_cmd_locate(int argc, char **argv)
     if (stream) {
         se_stream_config scfg;
         se_stream_info sinfo;
-        if (pulse_channel == 0) {
-            rc = se_cli_fail(SE_EXIT_USAGE, "streaming %s needs --pulse-channel (the reference must "
-                                            "come from the recording itself)",
+        se_recording *hdr = NULL;
+        if (pulse_channel == 0 && pulse == NULL) {
+            rc = se_cli_fail(SE_EXIT_USAGE, "streaming %s needs --pulse-channel or --pulse (the "
+                                            "direct arrival as its own reference needs the whole "
+                                            "record)",
                              path);
             goto done;
         }
@@ -407,10 +410,31 @@ int se_cmd_locate(int argc, char **argv)
         }
         se_stream_config_init(&scfg);
         scfg.channel = (unsigned)(channel - 1);
-        scfg.pulse_channel = (int)(pulse_channel - 1);
         /* repeated taps are stacked within the memory limit (at most 256 MiB of shot segments) */
         scfg.stack_memory = mem_mib < 256 ? (size_t)mem_mib << 20 : (size_t)256 << 20;
-        cfg.reference_kind = SE_REF_CHANNEL;
+        if (pulse_channel > 0) {
+            scfg.pulse_channel = (int)(pulse_channel - 1);
+            cfg.reference_kind = SE_REF_CHANNEL;
+            snprintf(refdesc, sizeof refdesc, "channel %lu", pulse_channel);
+        } else {
+            /* a shape or a pulse file, rendered or checked at the header's rate */
+            hdr = se_recording_probe(path, &err);
+            if (hdr == NULL) {
+                rc = se_cli_fail_err(&err, 0);
+                goto done;
+            }
+            if (channel > hdr->channels) {
+                rc = se_cli_fail(SE_EXIT_USAGE, "--channel %lu: %s has %u channel%s", channel,
+                                 path, hdr->channels, hdr->channels == 1 ? "" : "s");
+                se_recording_free(hdr);
+                goto done;
+            }
+            rc = se_cli_load_reference(pulse, 0, hdr, &cfg, &refbuf, refdesc, sizeof refdesc,
+                                       refsha, &have_refsha);
+            se_recording_free(hdr);
+            if (rc != SE_EXIT_OK)
+                goto done;
+        }
         memset(&sinfo, 0, sizeof sinfo);
         /* a NaN source end is estimated by the stream as by the whole-record run */
         if (se_locate_stream(path, &cfg, &scfg, &res, &sinfo, &err) != SE_OK) {
@@ -431,7 +455,6 @@ int se_cmd_locate(int argc, char **argv)
         snprintf(header.format, sizeof header.format, "%.36s, streamed", sinfo.format);
         rec = &header;
         rec_is_header = 1;
-        snprintf(refdesc, sizeof refdesc, "channel %lu", pulse_channel);
         goto located;
     }
     if (channel > rec->channels) {

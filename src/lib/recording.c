@@ -512,6 +512,69 @@ se_recording *se_recording_read(const char *path, const se_read_options *opt, se
     return rec;
 }
 
+se_recording *se_recording_probe(const char *path, se_error *err)
+{
+    se_recording *rec;
+    struct stat st;
+    SF_INFO info;
+    SNDFILE *snd;
+    if (path == NULL) {
+        se_fail(err, SE_ERR_ARG, "recording: NULL path");
+        return NULL;
+    }
+    if (stat(path, &st) != 0) {
+        se_fail(err, SE_ERR_IO, "%s: cannot open: %s", path, strerror(errno));
+        return NULL;
+    }
+    if (S_ISDIR(st.st_mode)) {
+        se_fail(err, SE_ERR_IO, "%s: is a directory, not a recording", path);
+        return NULL;
+    }
+    if (se_is_text_ext(path)) {
+        se_fail(err, SE_ERR_FORMAT, "%s: a text table is read whole, not streamed", path);
+        return NULL;
+    }
+    memset(&info, 0, sizeof info);
+    snd = sf_open(path, SFM_READ, &info);
+    if (snd == NULL) {
+        char msg[256];
+        snprintf(msg, sizeof msg, "%s", sf_strerror(NULL)); /* global in libsndfile: copy now */
+        if (S_ISREG(st.st_mode) && st.st_size > 0 && se_sniff_text(path))
+            se_fail(err, SE_ERR_FORMAT, "%s: a text table is read whole, not streamed", path);
+        else
+            se_fail(err, SE_ERR_FORMAT, "%s: not a sound file libsndfile reads (libsndfile: %s)",
+                    path, msg);
+        return NULL;
+    }
+    if (info.channels < 1 || info.samplerate <= 0) {
+        se_fail(err, SE_ERR_FORMAT, "%s: header gives %d channels at %d Hz", path, info.channels,
+                info.samplerate);
+        sf_close(snd);
+        return NULL;
+    }
+    if (info.frames <= 0) {
+        se_fail(err, SE_ERR_DATA, "%s: recording holds no samples (0 frames)", path);
+        sf_close(snd);
+        return NULL;
+    }
+    rec = se_calloc(1, sizeof *rec, "recording", err);
+    if (rec == NULL) {
+        sf_close(snd);
+        return NULL;
+    }
+    rec->frames = (size_t)info.frames;
+    rec->channels = (unsigned)info.channels;
+    rec->rate = (double)info.samplerate;
+    se_describe_format(info.format, rec->format);
+    sf_close(snd);
+    rec->path = se_strdup(path, err);
+    if (rec->path == NULL) {
+        se_recording_free(rec);
+        return NULL;
+    }
+    return rec;
+}
+
 void se_recording_free(se_recording *rec)
 {
     if (rec == NULL)
