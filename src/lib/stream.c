@@ -954,6 +954,7 @@ static void *se_corr_run(void *arg)
     for (;;) {
         size_t k;
         se_slot *sl;
+        int failed;
         pthread_mutex_lock(&q->mu);
         while (!q->stop && q->next < q->nchunks && q->next - q->used >= SE_STREAM_RING)
             pthread_cond_wait(&q->cv, &q->mu);
@@ -965,11 +966,12 @@ static void *se_corr_run(void *arg)
         pthread_mutex_unlock(&q->mu);
         sl = &q->slot[k % SE_STREAM_RING];
         se_chunk_make(q, c->src, c->w, k, sl);
+        failed = sl->st != SE_OK; /* read before the slot is handed over (then reused) */
         pthread_mutex_lock(&q->mu);
         sl->ready = 1;
         pthread_cond_broadcast(&q->cv);
         pthread_mutex_unlock(&q->mu);
-        if (sl->st != SE_OK)
+        if (failed)
             return NULL; /* the scan stops there; the chunks before are the other thread's */
     }
 }
