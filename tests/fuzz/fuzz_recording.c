@@ -1,5 +1,6 @@
 /* libFuzzer target: the recording reader (se_recording_read: libsndfile formats, header checks,
- * NaN/Inf scan, text fallback) on arbitrary bytes through a temporary file named .wav. */
+ * NaN/Inf scan, text fallback) and the header probe of streamed recordings (se_recording_probe)
+ * on arbitrary bytes through a temporary file named .wav. */
 #include <math.h>
 #include <stdint.h>
 #include <stdio.h>
@@ -15,7 +16,7 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
 {
     se_read_options opt = {(size_t)1 << 26};
-    se_recording *rec;
+    se_recording *rec, *hdr;
     se_error err;
     FILE *fp;
     if (se_fz_path[0] == '\0')
@@ -40,6 +41,17 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
             if (!isfinite(rec->data[i]))
                 abort(); /* the reader promises finite samples */
     }
+    se_error_clear(&err);
+    hdr = se_recording_probe(se_fz_path, &err);
+    if (hdr == NULL && (err.code == 0 || err.message[0] == '\0'))
+        abort();
+    if (hdr != NULL && (hdr->channels < 1 || !(hdr->rate > 0.0) || hdr->frames < 1 ||
+                        hdr->data != NULL))
+        abort();
+    /* a recording the reader takes has the header the probe gives */
+    if (hdr != NULL && rec != NULL && (hdr->channels != rec->channels || hdr->rate != rec->rate))
+        abort();
+    se_recording_free(hdr);
     se_recording_free(rec);
     remove(se_fz_path);
     return 0;
