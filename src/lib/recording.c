@@ -437,6 +437,36 @@ static se_status se_read_unknown(SNDFILE *snd, const char *path, const SF_INFO *
     return SE_OK;
 }
 
+/* The header checks of the sound file snd (path, info as sf_open gave them; snd closed on
+ * failure) and a new recording with its channels, rate and format. need_frames: the frame count
+ * must be known (a probe); else only an empty recording is refused (unknown counts are read to
+ * the end). NULL with err filled on failure. */
+static se_recording *se_sound_header(SNDFILE *snd, const char *path, const SF_INFO *info,
+                                     int need_frames, se_error *err)
+{
+    se_recording *rec;
+    if (info->channels < 1 || info->samplerate <= 0) {
+        se_fail(err, SE_ERR_FORMAT, "%s: header gives %d channels at %d Hz", path, info->channels,
+                info->samplerate);
+        sf_close(snd);
+        return NULL;
+    }
+    if (need_frames ? info->frames <= 0 : info->frames == 0) {
+        se_fail(err, SE_ERR_DATA, "%s: recording holds no samples (0 frames)", path);
+        sf_close(snd);
+        return NULL;
+    }
+    rec = se_calloc(1, sizeof *rec, "recording", err);
+    if (rec == NULL) {
+        sf_close(snd);
+        return NULL;
+    }
+    rec->channels = (unsigned)info->channels;
+    rec->rate = (double)info->samplerate;
+    se_describe_format(info->format, rec->format);
+    return rec;
+}
+
 se_recording *se_recording_read(const char *path, const se_read_options *opt, se_error *err)
 {
     size_t max = (opt != NULL && opt->max_bytes != 0) ? opt->max_bytes : SE_READ_DEFAULT_MAX_BYTES;
@@ -476,25 +506,8 @@ se_recording *se_recording_read(const char *path, const se_read_options *opt, se
         return NULL;
     }
     sf_command(snd, SFC_SET_SCALE_FLOAT_INT_READ, NULL, SF_FALSE);
-    if (info.channels < 1 || info.samplerate <= 0) {
-        se_fail(err, SE_ERR_FORMAT, "%s: header gives %d channels at %d Hz", path, info.channels,
-                info.samplerate);
-        sf_close(snd);
+    if ((rec = se_sound_header(snd, path, &info, 0, err)) == NULL)
         return NULL;
-    }
-    if (info.frames == 0) {
-        se_fail(err, SE_ERR_DATA, "%s: recording holds no samples (0 frames)", path);
-        sf_close(snd);
-        return NULL;
-    }
-    rec = se_calloc(1, sizeof *rec, "recording", err);
-    if (rec == NULL) {
-        sf_close(snd);
-        return NULL;
-    }
-    rec->channels = (unsigned)info.channels;
-    rec->rate = (double)info.samplerate;
-    se_describe_format(info.format, rec->format);
     if (info.frames > 0 && info.frames != SF_COUNT_MAX && info.seekable)
         s = se_read_known(snd, path, &info, S_ISREG(st.st_mode), max, rec, err);
     else
@@ -546,26 +559,9 @@ se_recording *se_recording_probe(const char *path, se_error *err)
                     path, msg);
         return NULL;
     }
-    if (info.channels < 1 || info.samplerate <= 0) {
-        se_fail(err, SE_ERR_FORMAT, "%s: header gives %d channels at %d Hz", path, info.channels,
-                info.samplerate);
-        sf_close(snd);
+    if ((rec = se_sound_header(snd, path, &info, 1, err)) == NULL)
         return NULL;
-    }
-    if (info.frames <= 0) {
-        se_fail(err, SE_ERR_DATA, "%s: recording holds no samples (0 frames)", path);
-        sf_close(snd);
-        return NULL;
-    }
-    rec = se_calloc(1, sizeof *rec, "recording", err);
-    if (rec == NULL) {
-        sf_close(snd);
-        return NULL;
-    }
     rec->frames = (size_t)info.frames;
-    rec->channels = (unsigned)info.channels;
-    rec->rate = (double)info.samplerate;
-    se_describe_format(info.format, rec->format);
     sf_close(snd);
     rec->path = se_strdup(path, err);
     if (rec->path == NULL) {
