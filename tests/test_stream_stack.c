@@ -40,6 +40,7 @@ typedef struct tk_case {
     size_t shots;
     double clip_shot;  /* >= 0: the shot whose direct arrival is clipped, -1 none */
     double cut;        /* fraction of the last interval the record keeps (1 = whole) */
+    double loud;       /* > 0: noise of the second half raised by this much more (noise tracking) */
 } tk_case;
 
 /* Write the record of case c to path; *pw: the first interval (where the pulse is looked for). */
@@ -75,6 +76,9 @@ static int tk_write(const char *path, const tk_case *c, size_t *pw)
                 resp[i] += resp[i - k * step];
                 inj[i] += inj[i - k * step];
             }
+    if (c->loud > 0.0 && !CHECK(se_fd_add_noise(resp + n / 2, n - n / 2, c->loud * c->noise, 11,
+                                                &err) == SE_OK))
+        goto out;
     if (!CHECK(se_fd_add_noise(resp, n, c->noise, rec.seed, &err) == SE_OK) ||
         !CHECK(se_pulse_support(inj, step, &b, &e, &err) == SE_OK))
         goto out;
@@ -269,7 +273,7 @@ static void tk_run(const char *name, const tk_case *c, int stacking, size_t want
 
 static void tk_single(void)
 {
-    const tk_case c = {-1.0, 0.3, 4.0, 4.0, 0.01, 1, -1.0, 1.0};
+    const tk_case c = {-1.0, 0.3, 4.0, 4.0, 0.01, 1, -1.0, 1.0, 0.0};
     const char *path = "test_stream_stack_single.wav";
     size_t pw = 0;
     se_locate_result whole, on, off;
@@ -419,15 +423,25 @@ static void tk_response(const char *name, const tk_case *c, int time_base, size_
             sc.block = 1;
             if (CHECK(se_locate_stream(path, &cfg, &sc, &str, &info, &err) == SE_OK)) {
                 printf("%s: %zu shots found, %zu used whole, %zu and %zu streamed; %u passes, %u "
-                       "other reads; %zu events\n",
+                       "other reads; %zu events; noise varies %d\n",
                        name, whole.shots_found, whole.shots_used, str.shots_found, str.shots_used,
-                       info.passes, info.stack_reads, str.n_events);
+                       info.passes, info.stack_reads, str.n_events, str.noise_varies);
                 CHECK(whole.shots_used == want_used);
                 tk_compare(&whole, &str, name);
                 for (i = 0; i < whole.n_events && i < str.n_events; i++)
                     CHECK(str.events[i].lag_samples == whole.events[i].lag_samples);
-                if (want_used == 1) /* the screen held: the engine's pass alone (and pass 0) */
-                    CHECK(info.stack_reads == 0 && info.passes == (time_base ? 1u : 2u));
+                if (want_used == 1) {
+                    /* the screen held: the passes of a run with stacking off, nothing more */
+                    se_locate_result off;
+                    se_stream_info ioff;
+                    se_locate_config oc = cfg;
+                    memset(&off, 0, sizeof off);
+                    oc.stacking = SE_STACKING_OFF;
+                    if (CHECK(se_locate_stream(path, &oc, &sc, &off, &ioff, &err) == SE_OK))
+                        CHECK(info.stack_reads == 0 && info.passes == ioff.passes &&
+                              info.passes == (time_base ? 1u : 2u) + (str.noise_varies ? 1u : 0u));
+                    se_locate_result_free(&off);
+                }
             } else {
                 printf("  %s: %s\n", name, err.message);
             }
@@ -445,11 +459,11 @@ static void tk_response(const char *name, const tk_case *c, int time_base, size_
 int main(void)
 {
     /* taps 3 s apart on a line that rings for longer (end fixed at 100 m, source end +0.8) */
-    const tk_case taps = {-1.0, 0.8, 12.0, 3.0, 0.01, 4, -1.0, 1.0};
+    const tk_case taps = {-1.0, 0.8, 12.0, 3.0, 0.01, 4, -1.0, 1.0, 0.0};
     /* eight taps 1.5 s apart, the third clipped, the last cut at 40 % of its interval */
-    const tk_case outl = {-1.0, 0.3, 12.0, 1.5, 0.01, 8, 2.0, 0.4};
+    const tk_case outl = {-1.0, 0.3, 12.0, 1.5, 0.01, 8, 2.0, 0.4, 0.0};
     /* two taps, the second clipped: one usable, located on the first tap's segment alone */
-    const tk_case pair = {-1.0, 0.3, 6.0, 3.0, 0.01, 2, 1.0, 1.0};
+    const tk_case pair = {-1.0, 0.3, 6.0, 3.0, 0.01, 2, 1.0, 1.0, 0.0};
     if (getenv("SE_STREAM_STACK_BIG") != NULL) {
         tk_big();
         return se_test_done("stream_stack big");
@@ -461,12 +475,20 @@ int main(void)
     tk_single();
     {
         /* four taps 4 s apart, end -0.5 (the direct arrival stays the largest |r|), and one */
-        const tk_case four = {-0.5, 0.3, 16.0, 4.0, 0.01, 4, -1.0, 1.0};
-        const tk_case one = {-0.5, 0.3, 4.0, 4.0, 0.01, 1, -1.0, 1.0};
+        const tk_case four = {-0.5, 0.3, 16.0, 4.0, 0.01, 4, -1.0, 1.0, 0.0};
+        const tk_case one = {-0.5, 0.3, 4.0, 4.0, 0.01, 1, -1.0, 1.0, 0.0};
         tk_response("response", &four, 1, 4);
         tk_response("response_no_time_base", &four, 0, 4);
         tk_response("response_single", &one, 1, 1);
         tk_response("response_single_no_time_base", &one, 0, 1);
+        {
+            /* the noise of the second half eight times louder: the profile pass, whose clusters
+             * keep |r| relative to each lag's level, still screens a single tap */
+            const tk_case four_loud = {-0.5, 0.3, 16.0, 4.0, 0.01, 4, -1.0, 1.0, 8.0};
+            const tk_case one_loud = {-0.5, 0.3, 16.0, 16.0, 0.01, 1, -1.0, 1.0, 8.0};
+            tk_response("response_loud", &four_loud, 1, 4);
+            tk_response("response_single_loud", &one_loud, 1, 1);
+        }
     }
     return se_test_done("stream_stack");
 }

@@ -37,8 +37,9 @@
  * are found but fewer than two are usable, se_locate runs on the one usable (or first) shot's
  * segment, as se_locate does. Without a pulse channel se_locate stacks on the response's own
  * direct arrivals (three in a rhythm, stack.h); the stream does the same after its engine pass,
- * which shows whether three can be there (clusters reaching half the direct arrival's |r|, or
- * always with the profile pass of non-stationary noise): only then does it search the response
+ * which shows whether three can be there (clusters reaching half the direct arrival's |r|; with
+ * the profile pass of non-stationary noise, bounded by the levels of the blocks they touch):
+ * only then does it search the response
  * for the shots in passes of its own, as above with the response as the trigger channel, and
  * locate on the stack (else the single shot's pass stands, no extra pass made).
  * Memory for repeated shots: stack_memory (default 256 MiB) for the aligned segments, plus the

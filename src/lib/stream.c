@@ -169,15 +169,26 @@ static se_status se_window_profile(const se_noise_profile *p, size_t a, size_t e
  * stack.h), which is at least |r| at the direct arrival, so every shot after it lies in a cluster
  * whose largest |r| reaches half of that (0.45 |a0| here, a0 being the refined peak), and a
  * cluster of extent E holds at most E / min_interval + 1 of them (min_interval 4 m). Clusters of
- * the profile pass keep |r| relative to each lag's threshold: then always possible. */
+ * the profile pass keep |r| / (pk sigma(lag)): their |r| is bounded by that times pk and the
+ * largest level of the blocks they touch (guard lags included). */
 static int se_sl_shots_possible(const se_sl *s, double a0)
 {
     size_t i, can = 1; /* the direct arrival */
-    if (s->pprof != NULL)
-        return 1;
-    for (i = 0; i < s->nwins; i++)
-        if (s->wins[i].cmax >= 0.45 * fabs(a0))
-            can += (s->wins[i].cand_last - s->wins[i].cand_first) / (4 * s->m) + 1;
+    for (i = 0; i < s->nwins; i++) {
+        const se_window *w = &s->wins[i];
+        double top = w->cmax;
+        if (s->pprof != NULL) {
+            const se_noise_profile *p = s->pprof;
+            size_t g = p->guard, b = se_prof_block(p, w->cand_first > g ? w->cand_first - g : 0);
+            size_t e = se_prof_block(p, w->cand_last + g);
+            double smax = 0.0;
+            for (; b <= e; b++)
+                smax = fmax(smax, p->sigma[b]);
+            top *= s->pk * smax;
+        }
+        if (top >= 0.45 * fabs(a0))
+            can += (w->cand_last - w->cand_first) / (4 * s->m) + 1;
+    }
     return can >= 3;
 }
 
