@@ -325,52 +325,94 @@ static void se_state_free(se_fit_state *s)
 
 /* One Levenberg-Marquardt fit of k echoes from init. out->ok = 0 when the fit failed, ran out
  * of the window or merged two echoes. Returns 0, or -1 on allocation failure (err filled). */
+/* One Levenberg-Marquardt solve (GSL trust region, at most SE_FIT_MAX_ITER iterations, xtol and
+ * gtol 1e-10) of the n residuals f with Jacobian df (params passed on) from p0 [size: np], shared
+ * by the echo fit and the layered fit. lm receives the workspace (position, residual, Jacobian)
+ * and a covariance matrix to fill; free both with se_lm_free. Returns 1 when the solve ran
+ * (converged or at the iteration limit), 0 when GSL refused it, -1 on allocation failure (err
+ * names what). */
+typedef struct se_lm {
+    gsl_multifit_nlinear_workspace *w;
+    gsl_matrix *cov;
+} se_lm;
+
+static void se_lm_free(se_lm *lm)
+{
+    gsl_matrix_free(lm->cov);
+    if (lm->w != NULL)
+        gsl_multifit_nlinear_free(lm->w);
+    lm->w = NULL;
+    lm->cov = NULL;
+}
+
+static int se_lm_solve(se_lm *lm, int (*f)(const gsl_vector *, void *, gsl_vector *),
+                       int (*df)(const gsl_vector *, void *, gsl_matrix *), void *params, size_t n,
+                       const double *p0v, size_t np, const char *what, se_error *err)
+{
+    gsl_multifit_nlinear_parameters par = gsl_multifit_nlinear_default_parameters();
+    gsl_multifit_nlinear_fdf fdf;
+    gsl_vector *p0 = gsl_vector_alloc(np);
+    size_t i;
+    int info = 0, status;
+    lm->cov = gsl_matrix_alloc(np, np);
+    lm->w = gsl_multifit_nlinear_alloc(gsl_multifit_nlinear_trust, &par, n, np);
+    if (p0 == NULL || lm->cov == NULL || lm->w == NULL) {
+        gsl_vector_free(p0);
+        se_lm_free(lm);
+        se_fail(err, SE_ERR_NOMEM, "%s: cannot allocate the %zu x %zu problem", what, n, np);
+        return -1;
+    }
+    for (i = 0; i < np; i++)
+        gsl_vector_set(p0, i, p0v[i]);
+    memset(&fdf, 0, sizeof fdf);
+    fdf.f = f;
+    fdf.df = df;
+    fdf.n = n;
+    fdf.p = np;
+    fdf.params = params;
+    status = gsl_multifit_nlinear_init(p0, &fdf, lm->w);
+    if (status == GSL_SUCCESS)
+        status = gsl_multifit_nlinear_driver(SE_FIT_MAX_ITER, 1e-10, 1e-10, 0.0, NULL, NULL, &info,
+                                             lm->w);
+    gsl_vector_free(p0);
+    return status == GSL_SUCCESS || status == GSL_EMAXITER;
+}
+
 static int se_fit_run(const se_fit_problem *pr, const se_echo *init, size_t k, double sigma,
                       double min_sep, se_fit_state *out, se_error *err)
 {
-    const gsl_multifit_nlinear_type *T = gsl_multifit_nlinear_trust;
-    gsl_multifit_nlinear_parameters par = gsl_multifit_nlinear_default_parameters();
-    gsl_multifit_nlinear_fdf fdf;
-    gsl_multifit_nlinear_workspace *w = NULL;
-    gsl_vector *p0 = NULL;
-    gsl_matrix *cov = NULL;
+    se_lm lm = {NULL, NULL};
+    gsl_matrix *cov;
+    double *p0v;
     size_t i, np = 2 * k;
-    int info = 0, status;
+    int ran;
     double rss, s2;
 
     memset(out, 0, sizeof *out);
     if (pr->nwin < 2 * np)
         return 0;
     out->e = se_calloc(k, sizeof *out->e, "fitted echoes", err);
-    p0 = gsl_vector_alloc(np);
-    cov = gsl_matrix_alloc(np, np);
-    w = gsl_multifit_nlinear_alloc(T, &par, pr->nwin, np);
-    if (out->e == NULL || p0 == NULL || cov == NULL || w == NULL) {
-        gsl_vector_free(p0);
-        gsl_matrix_free(cov);
-        if (w != NULL)
-            gsl_multifit_nlinear_free(w);
+    p0v = se_calloc(np, sizeof *p0v, "fitted echoes", err);
+    if (out->e == NULL || p0v == NULL) {
+        free(p0v);
         se_state_free(out);
-        se_fail(err, SE_ERR_NOMEM, "echo fit: cannot allocate the %zu x %zu problem", pr->nwin, np);
         return -1;
     }
     for (i = 0; i < k; i++) {
-        gsl_vector_set(p0, 2 * i, init[i].amplitude);
-        gsl_vector_set(p0, 2 * i + 1, init[i].lag);
+        p0v[2 * i] = init[i].amplitude;
+        p0v[2 * i + 1] = init[i].lag;
     }
-    memset(&fdf, 0, sizeof fdf);
-    fdf.f = se_fit_f;
-    fdf.df = se_fit_df;
-    fdf.n = pr->nwin;
-    fdf.p = np;
-    fdf.params = (void *)pr;
-    status = gsl_multifit_nlinear_init(p0, &fdf, w);
-    if (status == GSL_SUCCESS)
-        status = gsl_multifit_nlinear_driver(SE_FIT_MAX_ITER, 1e-10, 1e-10, 0.0, NULL, NULL, &info, w);
-    if (status == GSL_SUCCESS || status == GSL_EMAXITER) {
-        gsl_vector *f = gsl_multifit_nlinear_residual(w);
-        gsl_vector *p = gsl_multifit_nlinear_position(w);
-        gsl_matrix *J = gsl_multifit_nlinear_jac(w);
+    ran = se_lm_solve(&lm, se_fit_f, se_fit_df, (void *)pr, pr->nwin, p0v, np, "echo fit", err);
+    free(p0v);
+    if (ran < 0) {
+        se_state_free(out);
+        return -1;
+    }
+    cov = lm.cov;
+    if (ran) {
+        gsl_vector *f = gsl_multifit_nlinear_residual(lm.w);
+        gsl_vector *p = gsl_multifit_nlinear_position(lm.w);
+        gsl_matrix *J = gsl_multifit_nlinear_jac(lm.w);
         gsl_blas_ddot(f, f, &rss);
         s2 = sigma > 0.0 ? sigma * sigma
                          : (pr->nwin > np ? rss / (double)(pr->nwin - np) : rss);
@@ -401,9 +443,7 @@ static int se_fit_run(const se_fit_problem *pr, const se_echo *init, size_t k, d
         out->rss = rss;
         out->bic = se_fit_bic(rss, pr->nwin, k, sigma);
     }
-    gsl_vector_free(p0);
-    gsl_matrix_free(cov);
-    gsl_multifit_nlinear_free(w);
+    se_lm_free(&lm);
     if (!out->ok) {
         se_state_free(out);
         out->ok = 0;
@@ -912,44 +952,22 @@ void se_layerfit_config_init(se_layerfit_config *cfg)
 static int se_layer_run(const se_layer_problem *pr, const double *p0v, size_t np, double sigma,
                         se_layerfit_result *out, se_error *err)
 {
-    const gsl_multifit_nlinear_type *T = gsl_multifit_nlinear_trust;
-    gsl_multifit_nlinear_parameters par = gsl_multifit_nlinear_default_parameters();
-    gsl_multifit_nlinear_fdf fdf;
-    gsl_multifit_nlinear_workspace *w = NULL;
-    gsl_vector *p0 = NULL;
-    gsl_matrix *cov = NULL;
+    se_lm lm = {NULL, NULL};
+    gsl_matrix *cov;
     size_t i, j;
-    int info = 0, status, ok = 0;
+    int ran, ok = 0;
 
     if (pr->nwin <= np + 2)
         return 0;
-    p0 = gsl_vector_alloc(np);
-    cov = gsl_matrix_alloc(np, np);
-    w = gsl_multifit_nlinear_alloc(T, &par, pr->nwin, np);
-    if (p0 == NULL || cov == NULL || w == NULL) {
-        gsl_vector_free(p0);
-        gsl_matrix_free(cov);
-        if (w != NULL)
-            gsl_multifit_nlinear_free(w);
-        se_fail(err, SE_ERR_NOMEM, "layered fit: cannot allocate the %zu x %zu problem", pr->nwin,
-                np);
+    ran = se_lm_solve(&lm, se_layer_f, se_layer_df, (void *)pr, pr->nwin, p0v, np, "layered fit",
+                      err);
+    if (ran < 0)
         return -1;
-    }
-    for (i = 0; i < np; i++)
-        gsl_vector_set(p0, i, p0v[i]);
-    memset(&fdf, 0, sizeof fdf);
-    fdf.f = se_layer_f;
-    fdf.df = se_layer_df;
-    fdf.n = pr->nwin;
-    fdf.p = np;
-    fdf.params = (void *)pr;
-    status = gsl_multifit_nlinear_init(p0, &fdf, w);
-    if (status == GSL_SUCCESS)
-        status = gsl_multifit_nlinear_driver(SE_FIT_MAX_ITER, 1e-10, 1e-10, 0.0, NULL, NULL, &info, w);
-    if (status == GSL_SUCCESS || status == GSL_EMAXITER) {
-        gsl_vector *f = gsl_multifit_nlinear_residual(w);
-        gsl_vector *pv = gsl_multifit_nlinear_position(w);
-        gsl_matrix *J = gsl_multifit_nlinear_jac(w);
+    cov = lm.cov;
+    if (ran) {
+        gsl_vector *f = gsl_multifit_nlinear_residual(lm.w);
+        gsl_vector *pv = gsl_multifit_nlinear_position(lm.w);
+        gsl_matrix *J = gsl_multifit_nlinear_jac(lm.w);
         double rss, s2, p[5], C[5][5], A, L, dA[5], dL[5], ga[2][5];
         gsl_blas_ddot(f, f, &rss);
         s2 = sigma > 0.0 ? sigma * sigma : rss / (double)(pr->nwin - np);
@@ -996,9 +1014,7 @@ static int se_layer_run(const se_layer_problem *pr, const double *p0v, size_t np
             out->sigma = sqrt(s2);
         }
     }
-    gsl_vector_free(p0);
-    gsl_matrix_free(cov);
-    gsl_multifit_nlinear_free(w);
+    se_lm_free(&lm);
     return ok;
 }
 

@@ -45,6 +45,8 @@ typedef struct se_sim_run {
 
 static se_status se_sim_check_line(const se_sim_line *line, se_error *err);
 static se_status se_sim_check_record(const se_sim_record *rec, size_t *frames, se_error *err);
+static se_status se_sim_check_all(const se_sim_line *line, const se_sim_record *rec, size_t frames,
+                                  se_error *err);
 static se_status se_sim_run_init(se_sim_run *run, const se_sim_line *line, double horizon_s,
                                  double quantum, double floor, se_error *err);
 static void se_sim_run_free(se_sim_run *run);
@@ -130,6 +132,21 @@ static se_status se_sim_check_record(const se_sim_record *rec, size_t *frames, s
         return se_fail(err, SE_ERR_RANGE, "simulate: oversampling %zu is more than 1048576", rec->oversample);
     if (!isfinite(rec->amplitude_floor) || rec->amplitude_floor < 0.0 || rec->amplitude_floor >= 1.0)
         return se_fail(err, SE_ERR_RANGE, "simulate: amplitude floor %g is not in [0, 1)", rec->amplitude_floor);
+    return SE_OK;
+}
+
+/* The record, the line, and frames against the record's length (se_simulate's checks). */
+static se_status se_sim_check_all(const se_sim_line *line, const se_sim_record *rec, size_t frames,
+                                  se_error *err)
+{
+    size_t want = 0;
+    se_status st = se_sim_check_record(rec, &want, err);
+    if (st != SE_OK)
+        return st;
+    if ((st = se_sim_check_line(line, err)) != SE_OK)
+        return st;
+    if (frames != want)
+        return se_fail(err, SE_ERR_ARG, "simulate: %zu frames given, the record has %zu", frames, want);
     return SE_OK;
 }
 
@@ -382,18 +399,12 @@ se_status se_sim_arrivals(const se_sim_line *line, double horizon_s, double time
 se_status se_simulate(const se_sim_line *line, const se_sim_record *rec, double *response,
                       double *pulse, size_t frames, se_error *err)
 {
-    size_t want = 0, i, n_arr = 0, os;
+    size_t i, n_arr = 0, os;
     se_sim_arrival *arr = NULL;
     se_status st;
     double fs, t0, dur, horizon, floor_abs, sensor;
-    st = se_sim_check_record(rec, &want, err);
-    if (st != SE_OK)
+    if ((st = se_sim_check_all(line, rec, frames, err)) != SE_OK)
         return st;
-    st = se_sim_check_line(line, err);
-    if (st != SE_OK)
-        return st;
-    if (frames != want)
-        return se_fail(err, SE_ERR_ARG, "simulate: %zu frames given, the record has %zu", frames, want);
     fs = rec->rate_hz;
     t0 = rec->pulse_start_s;
     dur = rec->pulse.duration_s;
@@ -521,7 +532,7 @@ se_status se_simulate_skin(const se_sim_line *line, const se_sim_record *rec, do
                            double speed_m_s, double *response, double *pulse, size_t frames,
                            se_error *err)
 {
-    size_t want = 0, i, k, n_arr = 0, os, N, nb, mp;
+    size_t i, k, n_arr = 0, os, N, nb, mp;
     se_sim_arrival *arr = NULL;
     se_status st;
     double fs, t0, horizon, floor_abs, sensor, *buf = NULL;
@@ -534,14 +545,8 @@ se_status se_simulate_skin(const se_sim_line *line, const se_sim_record *rec, do
         return se_fail(err, SE_ERR_RANGE, "simulate: speed %g m/s is not finite > 0", speed_m_s);
     if (skin_k_s05_per_m == 0.0)
         return se_simulate(line, rec, response, pulse, frames, err);
-    st = se_sim_check_record(rec, &want, err);
-    if (st != SE_OK)
+    if ((st = se_sim_check_all(line, rec, frames, err)) != SE_OK)
         return st;
-    st = se_sim_check_line(line, err);
-    if (st != SE_OK)
-        return st;
-    if (frames != want)
-        return se_fail(err, SE_ERR_ARG, "simulate: %zu frames given, the record has %zu", frames, want);
     fs = rec->rate_hz;
     t0 = rec->pulse_start_s;
     if (pulse != NULL)
