@@ -987,6 +987,17 @@ static void *se_corr_run(void *arg)
     }
 }
 
+/* The read buffers src's format needs (raw floats, or all channels interleaved); 0 when they
+ * cannot be allocated. */
+static int se_src_buffers(se_src *src)
+{
+    if (src->rawf)
+        src->fbuf = malloc((size_t)SE_STREAM_READ_FRAMES * src->nch * sizeof *src->fbuf);
+    else if (src->nch > 1)
+        src->inter = malloc((size_t)SE_STREAM_READ_FRAMES * src->nch * sizeof *src->inter);
+    return !((src->rawf && src->fbuf == NULL) || (!src->rawf && src->nch > 1 && src->inter == NULL));
+}
+
 /* A second handle on src's file for a correlating thread, read the same way. */
 static int se_src_twin(const se_src *src, se_src *twin)
 {
@@ -1002,11 +1013,7 @@ static int se_src_twin(const se_src *src, se_src *twin)
     sf_command(twin->snd, SFC_SET_SCALE_FLOAT_INT_READ, NULL, SF_FALSE);
     if ((unsigned)sfi.channels != src->nch)
         return 0;
-    if (src->rawf)
-        twin->fbuf = malloc((size_t)SE_STREAM_READ_FRAMES * src->nch * sizeof *twin->fbuf);
-    else if (src->nch > 1)
-        twin->inter = malloc((size_t)SE_STREAM_READ_FRAMES * src->nch * sizeof *twin->inter);
-    return !((src->rawf && twin->fbuf == NULL) || (!src->rawf && src->nch > 1 && twin->inter == NULL));
+    return se_src_buffers(twin);
 }
 
 static void se_src_close(se_src *src)
@@ -1351,11 +1358,7 @@ se_status se_locate_stream(const char *path, const se_locate_config *cfg_in,
     src.ch = scfg.channel;
     src.rawf = (sfi.format & SF_FORMAT_SUBMASK) == SF_FORMAT_FLOAT &&
                sf_command(snd, SFC_RAW_DATA_NEEDS_ENDSWAP, NULL, 0) == SF_FALSE;
-    if (src.rawf)
-        src.fbuf = malloc((size_t)SE_STREAM_READ_FRAMES * nch * sizeof *src.fbuf);
-    else if (nch > 1)
-        src.inter = malloc((size_t)SE_STREAM_READ_FRAMES * nch * sizeof *src.inter);
-    if ((src.rawf && src.fbuf == NULL) || (!src.rawf && nch > 1 && src.inter == NULL)) {
+    if (!se_src_buffers(&src)) {
         st = se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate a read buffer of %u x %d samples",
                      nch, SE_STREAM_READ_FRAMES);
         goto done;
@@ -1805,6 +1808,27 @@ static size_t se_read_frames(se_src *src, double *inter, size_t take)
     return k > 0 ? (size_t)k : 0;
 }
 
+/* The file back at its first frame, for another pass of the shot search. */
+static se_status se_rewind(se_src *src, se_error *err)
+{
+    if (sf_seek(src->snd, 0, SEEK_SET) != 0)
+        return se_fail(err, SE_ERR_IO, "%s: cannot seek to the start", src->path);
+    return SE_OK;
+}
+
+/* The frames from pos on (at most SE_STREAM_READ_FRAMES, none past n) into inter, *got of them;
+ * a file that ends before n is named as truncated. */
+static se_status se_next_frames(se_src *src, double *inter, size_t pos, size_t n, size_t *got,
+                                se_error *err)
+{
+    size_t take = n - pos < SE_STREAM_READ_FRAMES ? n - pos : SE_STREAM_READ_FRAMES;
+    *got = se_read_frames(src, inter, take);
+    if (*got == 0)
+        return se_fail(err, SE_ERR_FORMAT, "%s: truncated: file ends before frame %zu", src->path,
+                       pos + 1);
+    return SE_OK;
+}
+
 /* r[a, e) of the trigger channel (src->ch) into *out (malloc'd), bit for bit the pass's values. */
 static se_status se_stack_rwin(se_src *src, const se_xcorr *xc, se_xcorr_work *w, size_t n,
                                size_t m, size_t a, size_t e, double **out, size_t *a_out,
@@ -1928,20 +1952,16 @@ static se_status se_stream_stack(se_src *src_in, size_t n, int pilot_ch, const s
         for (i = 0; i < m; i++)
             es += cfg->reference[i] * cfg->reference[i];
         thr = (0.9 * frac) * (0.9 * frac) * es;
-        if (sf_seek(src_in->snd, 0, SEEK_SET) != 0) {
+        if ((st = se_rewind(src_in, err)) != SE_OK) {
             free(ring);
-            st = se_fail(err, SE_ERR_IO, "%s: cannot seek to the start", src_in->path);
             goto done;
         }
         info->stack_reads++;
         /* E_x(k) is known once sample k + m - 1 is read (and for the last m - 1 lags, at the end) */
         while (pos < n) {
-            size_t take = n - pos < SE_STREAM_READ_FRAMES ? n - pos : SE_STREAM_READ_FRAMES;
-            size_t got = se_read_frames(src_in, inter, take);
-            if (got == 0) {
+            size_t got;
+            if ((st = se_next_frames(src_in, inter, pos, n, &got, err)) != SE_OK) {
                 free(ring);
-                st = se_fail(err, SE_ERR_FORMAT, "%s: truncated: file ends before frame %zu",
-                             src_in->path, pos + 1);
                 goto done;
             }
             for (j = 0; j < got; j++) {
@@ -1972,21 +1992,15 @@ static se_status se_stream_stack(se_src *src_in, size_t n, int pilot_ch, const s
         st = se_fail(err, SE_ERR_NOMEM, "stream: cannot allocate the shot search buffers");
         goto done;
     }
-    if (sf_seek(src_in->snd, 0, SEEK_SET) != 0) {
-        st = se_fail(err, SE_ERR_IO, "%s: cannot seek to the start", src_in->path);
+    if ((st = se_rewind(src_in, err)) != SE_OK)
         goto done;
-    }
     info->passes++;
     {
         size_t pos = 0, c = 0, have = 0; /* tx holds trigger samples c .. c + have - 1 */
         while (pos < n) {
-            size_t take = n - pos < SE_STREAM_READ_FRAMES ? n - pos : SE_STREAM_READ_FRAMES;
-            size_t got = se_read_frames(src_in, inter, take);
-            if (got == 0) {
-                st = se_fail(err, SE_ERR_FORMAT, "%s: truncated: file ends before frame %zu",
-                             src_in->path, pos + 1);
+            size_t got;
+            if ((st = se_next_frames(src_in, inter, pos, n, &got, err)) != SE_OK)
                 goto done;
-            }
             for (j = 0; j < got; j++) {
                 double v = inter[j * nch + rch], t = inter[j * nch + tch];
                 if (!isfinite(v) || !isfinite(t)) {
@@ -2080,22 +2094,16 @@ static se_status se_stream_stack(se_src *src_in, size_t n, int pilot_ch, const s
 
     /* Pass 2: the runs of clipped samples of the response. */
     info->stack_reads++;
-    if (sf_seek(src_in->snd, 0, SEEK_SET) != 0) {
-        st = se_fail(err, SE_ERR_IO, "%s: cannot seek to the start", src_in->path);
+    if ((st = se_rewind(src_in, err)) != SE_OK)
         goto done;
-    }
     {
         size_t pos = 0, rb = 0;
         double rv = 0.0;
         int inrun = 0;
         while (pos < n) {
-            size_t take = n - pos < SE_STREAM_READ_FRAMES ? n - pos : SE_STREAM_READ_FRAMES;
-            size_t got = se_read_frames(src_in, inter, take);
-            if (got == 0) {
-                st = se_fail(err, SE_ERR_FORMAT, "%s: truncated: file ends before frame %zu",
-                             src_in->path, pos + 1);
+            size_t got;
+            if ((st = se_next_frames(src_in, inter, pos, n, &got, err)) != SE_OK)
                 goto done;
-            }
             for (j = 0; j <= got; j++) {
                 size_t at = pos + j;
                 int last = j == got;
