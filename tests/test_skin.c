@@ -10,6 +10,7 @@
 #include "strandecho/pulse.h"
 #include "strandecho/simulate.h"
 #include "strandecho/skin.h"
+#include "plain_lag.h"
 #include "testutil.h"
 
 #define FS 1e9                         /* 1 GS/s */
@@ -188,32 +189,6 @@ static void test_simulator(void)
     free(r2);
 }
 
-/* Plain matched filter near lag k: r[j] = sum_i x[j + i] s[i] / E_s on [k - 256, k + 256], refined
- * band-limited. */
-static double plain_lag(const double *x, size_t n, const double *s, size_t m, double k, double *amp)
-{
-    const size_t half = 256, len = 2 * half + 1;
-    double *r = calloc(len, sizeof *r), es = 0.0, lag = NAN, best = 0.0;
-    size_t i, j, ib = 0, k0 = (size_t)floor(k) - half;
-    se_error err;
-    for (i = 0; i < m; i++)
-        es += s[i] * s[i];
-    for (j = 0; r != NULL && j < len; j++) {
-        double acc = 0.0;
-        for (i = 0; i < m && k0 + j + i < n; i++)
-            acc += x[k0 + j + i] * s[i];
-        r[j] = acc / es;
-        if (fabs(r[j]) > best) {
-            best = fabs(r[j]);
-            ib = j;
-        }
-    }
-    if (r != NULL && se_refine_peak(r, len, ib, 0, &lag, amp, &err) == SE_OK)
-        lag += (double)k0;
-    free(r);
-    return lag;
-}
-
 /* 10-90 % rise (samples) of the leading edge up to the peak of y [size: n] from sample from. */
 static double rise_10_90(const double *y, size_t n, size_t from, size_t to)
 {
@@ -288,7 +263,7 @@ static void test_cable(double noise, unsigned long seed, int estimate)
     sc.k_s05_per_m = estimate ? NAN : SKIN_K;
     for (i = 0; i < NREFL; i++) {
         double amp = 0.0;
-        plain[i] = plain_lag(x, frames, pl + kb, m, truth[i], &amp);
+        plain[i] = se_plain_lag(x, frames, pl + kb, m, truth[i], 256, &amp);
         ech[i].lag = plain[i];
         ech[i].amplitude = amp;
     }

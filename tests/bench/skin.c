@@ -13,34 +13,10 @@
 #include "strandecho/simulate.h"
 #include "strandecho/skin.h"
 
+#include "../plain_lag.h"
+
 #define FS 1e9
 #define C0 299792458.0
-
-/* plain matched filter r[j] = sum_i x[j + i] s[i] / E_s within 64 lags of k (the true lag: as a
- * locator past its dead zone), refined band-limited */
-static double plain_lag(const double *x, size_t n, const double *s, size_t m, double k, double *amp)
-{
-    const size_t half = 64, len = 2 * half + 1;
-    double *r = calloc(len, sizeof *r), es = 0.0, lag = NAN, best = 0.0;
-    size_t i, j, ib = 0, k0 = (size_t)floor(k) - half;
-    se_error err;
-    for (i = 0; i < m; i++)
-        es += s[i] * s[i];
-    for (j = 0; r != NULL && j < len; j++) {
-        double acc = 0.0;
-        for (i = 0; i < m && k0 + j + i < n; i++)
-            acc += x[k0 + j + i] * s[i];
-        r[j] = acc / es;
-        if (fabs(r[j]) > best) {
-            best = fabs(r[j]);
-            ib = j;
-        }
-    }
-    if (r != NULL && se_refine_peak(r, len, ib, 0, &lag, amp, &err) == SE_OK)
-        lag += (double)k0;
-    free(r);
-    return lag;
-}
 
 int main(int argc, char **argv)
 {
@@ -95,7 +71,8 @@ int main(int argc, char **argv)
             if (isnan(truth) || fabs(arr[j].time_s - tt) < fabs(truth - tt))
                 truth = arr[j].time_s;
         truth = (double)kb + truth * FS;
-        plain = plain_lag(x, frames, pl + kb, m, truth, &amp);
+        /* the plain filter within 64 lags of the truth: as a locator past its dead zone */
+        plain = se_plain_lag(x, frames, pl + kb, m, truth, 64, &amp);
         se_skin_config_init(&sc);
         sc.rate_hz = FS;
         sc.lag0 = (double)kb;
